@@ -1,0 +1,160 @@
+"""Errors and warnings raised by paleomap.
+
+Every error paleomap raises on purpose derives from :class:`PaleomapError`; the
+subclasses also inherit the built-in exception they mean, so ``except ValueError``
+keeps working for callers who do not know paleomap.
+
+Input validation collects every problem it finds into :class:`Problem` records and
+raises one :class:`InputError` holding all of them, so a user can fix a file in one
+pass.
+
+Examples
+--------
+>>> from paleomap.errors import InputError, Problem
+>>> p = Problem("intervals.csv", 7, "top", "abc", "is not a number")
+>>> str(p)
+"intervals.csv, line 7, column 'top': is not a number (got 'abc')"
+"""
+
+from __future__ import annotations
+
+import warnings
+from collections.abc import Iterable
+from dataclasses import dataclass
+
+__all__ = [
+    "InputError",
+    "OutputExistsError",
+    "PaleomapError",
+    "PaleomapWarning",
+    "Problem",
+    "ProblemLog",
+]
+
+
+class PaleomapError(Exception):
+    """Root of every error paleomap raises on purpose."""
+
+
+class OutputExistsError(PaleomapError, FileExistsError):
+    """An output already exists and replacing it was not asked for."""
+
+
+class PaleomapWarning(UserWarning):
+    """Something in the data deserves a look but does not stop the work."""
+
+
+_MISSING = object()
+
+
+@dataclass(frozen=True)
+class Problem:
+    """One problem found in the user's input.
+
+    Parameters
+    ----------
+    file : str or None
+        The file, as the user named it (relative to the project file where possible).
+    line : int or None
+        CSV row number counting the header as line 1, or the TOML line.
+    column : str or None
+        CSV column or TOML key (dotted, e.g. ``"grid.cell_size"``).
+    value : object
+        The offending value, repeated with ``!r`` in the message.
+    message : str
+        What is wrong, e.g. ``"is not a number"``.
+    hint : str or None
+        What is allowed, or how to fix it.
+    """
+
+    file: str | None
+    line: int | None
+    column: str | None
+    value: object
+    message: str
+    hint: str | None = None
+
+    def location(self) -> str:
+        parts = []
+        if self.file:
+            parts.append(str(self.file))
+        if self.line is not None:
+            parts.append(f"line {self.line}")
+        if self.column:
+            parts.append(f"column {self.column!r}")
+        return ", ".join(parts)
+
+    def __str__(self) -> str:
+        where = self.location()
+        text = f"{where}: {self.message}" if where else self.message
+        if self.value is not _MISSING and self.value is not None:
+            text += f" (got {self.value!r})"
+        if self.hint:
+            text += f". {self.hint}"
+        return text
+
+
+class InputError(PaleomapError, ValueError):
+    """The user's input breaks the input contract.
+
+    Holds every :class:`Problem` found, in the order found.
+
+    Examples
+    --------
+    >>> err = InputError([Problem("cores.csv", 3, "x", "", "is empty")])
+    >>> err.problems[0].line
+    3
+    """
+
+    def __init__(self, problems: Iterable[Problem] | str):
+        if isinstance(problems, str):
+            problems = [Problem(None, None, None, None, problems)]
+        self.problems: tuple[Problem, ...] = tuple(problems)
+        super().__init__(self._text())
+
+    def _text(self) -> str:
+        if len(self.problems) == 1:
+            return str(self.problems[0])
+        lines = [f"{len(self.problems)} problems in the input:"]
+        lines += [f"  - {p}" for p in self.problems]
+        return "\n".join(lines)
+
+
+class ProblemLog:
+    """Collects problems and warnings during validation, then raises once.
+
+    Examples
+    --------
+    >>> log = ProblemLog()
+    >>> log.error("picks.csv", 4, "depth", "nan", "is not a number")
+    >>> log.has_errors
+    True
+    """
+
+    def __init__(self) -> None:
+        self.errors: list[Problem] = []
+        self.warnings: list[Problem] = []
+
+    def error(self, file, line, column, value, message, hint=None) -> None:
+        self.errors.append(Problem(_s(file), line, column, value, message, hint))
+
+    def warn(self, file, line, column, value, message, hint=None) -> None:
+        self.warnings.append(Problem(_s(file), line, column, value, message, hint))
+
+    @property
+    def has_errors(self) -> bool:
+        return bool(self.errors)
+
+    def raise_if_errors(self) -> None:
+        """Raise one :class:`InputError` holding every error collected so far."""
+        if self.errors:
+            raise InputError(self.errors)
+
+    def emit_warnings(self, stacklevel: int = 3) -> None:
+        """Issue each collected warning as a :class:`PaleomapWarning`."""
+        for w in self.warnings:
+            warnings.warn(str(w), PaleomapWarning, stacklevel=stacklevel)
+
+
+def _s(file) -> str | None:
+    return None if file is None else str(file)
