@@ -9,11 +9,22 @@ user's tables (and validating them) is :func:`build_cores`.
 
 from __future__ import annotations
 
+import math
+from collections.abc import Mapping, Sequence
 from dataclasses import dataclass
+from typing import TYPE_CHECKING
 
 import numpy as np
 
-__all__ = ["Core", "Interval", "Pick"]
+from .errors import ProblemLog
+
+if TYPE_CHECKING:  # only for annotations: project.py imports this module
+    import pandas as pd
+
+    from .project import Surface
+    from .scheme import Scheme
+
+__all__ = ["Core", "Interval", "Pick", "build_cores"]
 
 
 @dataclass(frozen=True)
@@ -120,3 +131,398 @@ class Core:
         bases = np.array([iv.base for iv in self.intervals], dtype=float)
         ranks = np.array([iv.rank for iv in self.intervals], dtype=int)
         return tops, bases, ranks
+
+
+_DEFAULT_FILES = {"cores": "cores.csv", "intervals": "intervals.csv", "picks": "picks.csv"}
+
+
+def build_cores(
+    cores: pd.DataFrame,
+    intervals: pd.DataFrame,
+    picks: pd.DataFrame,
+    scheme: Scheme | None,
+    surfaces: Sequence[Surface] | None,
+    *,
+    files: Mapping[str, str] | None = None,
+    log: ProblemLog | None = None,
+) -> tuple[Core, ...]:
+    """Validate the three core tables against each other, the scheme and the surfaces.
+
+    Parameters
+    ----------
+    cores : pandas.DataFrame
+        Columns ``core_id``, ``easting``, ``northing`` (working CRS) and optionally
+        ``x``, ``y`` (as given), ``elevation`` and ``line`` (source line for messages).
+    intervals : pandas.DataFrame
+        Columns ``core_id``, ``top``, ``base``, ``facies`` and optionally ``line``.
+    picks : pandas.DataFrame
+        Columns ``core_id``, ``surface``, ``depth`` and optionally ``line``.
+    scheme : Scheme or None
+        Facies are matched to its belt ids and aliases, ignoring case. None skips the
+        facies check (used when the scheme itself failed validation; ranks are then -1).
+    surfaces : sequence of Surface or None
+        Picks must name one of them. None skips the surface checks.
+    files : mapping, optional
+        Names of the three tables for messages (keys ``cores``, ``intervals``,
+        ``picks``).
+    log : ProblemLog, optional
+        Collects errors and warnings. Without one, warnings are issued as
+        :class:`~paleomap.errors.PaleomapWarning` and an
+        :class:`~paleomap.errors.InputError` holding every error is raised.
+
+    Returns
+    -------
+    tuple of Core
+        In the order of the cores table; intervals and picks sorted top down.
+
+    Notes
+    -----
+    Errors: empty or duplicate core id; a position, depth or number that is not finite;
+    a negative depth; ``top >= base``; overlapping intervals; an unknown facies; a core
+    in ``intervals`` or ``picks`` but not in ``cores``; an unknown surface; a surface
+    picked twice in one core; a pick outside its core's logged range; picks whose depth
+    order contradicts their surfaces' ages (a deeper pick must be older; two surfaces at
+    one depth need the younger one to be erosional). Warnings: gaps between intervals
+    (no recovery); a core with no intervals.
+
+    Examples
+    --------
+    >>> import pandas as pd
+    >>> from paleomap.scheme import builtin_scheme
+    >>> from paleomap.project import Surface
+    >>> cores = pd.DataFrame({"core_id": ["A"], "easting": [0.0], "northing": [0.0]})
+    >>> intervals = pd.DataFrame(
+    ...     {"core_id": ["A", "A"], "top": [0.0, 4.0], "base": [4.0, 9.0],
+    ...      "facies": ["clay", "Fine Sand"]})
+    >>> picks = pd.DataFrame({"core_id": ["A", "A"], "surface": ["s1", "s2"],
+    ...                       "depth": [1.0, 8.0]})
+    >>> (core,) = build_cores(cores, intervals, picks, builtin_scheme("siliciclastic"),
+    ...                       [Surface("s1", 100.0), Surface("s2", 200.0)])
+    >>> [iv.rank for iv in core.intervals], core.pick_depth("s2")
+    ([4, 2], 8.0)
+    """
+    own_log = log is None
+    log = ProblemLog() if log is None else log
+    names = {**_DEFAULT_FILES, **(dict(files) if files else {})}
+    f_cores, f_iv, f_picks = names["cores"], names["intervals"], names["picks"]
+
+    # -- cores ---------------------------------------------------------------------------
+    known: dict[str, dict] = {}
+    for row in _rows(cores):
+        cid = _text(row.get("core_id"))
+        line = row["line"]
+        if not cid:
+            log.error(
+                f_cores, line, "core_id", row.get("core_id"), "is empty", "every core needs an id"
+            )
+            continue
+        if cid in known:
+            log.error(
+                f_cores,
+                line,
+                "core_id",
+                cid,
+                f"is a duplicate core id (first on line {known[cid]['line']})",
+                "give each core its own id",
+            )
+            continue
+        ok = True
+        for col in ("easting", "northing"):
+            if not _finite(row.get(col)):
+                log.error(f_cores, line, col, row.get(col), "is not a finite coordinate")
+                ok = False
+        elevation = row.get("elevation")
+        if elevation is not None and not (isinstance(elevation, float) and math.isnan(elevation)):
+            if not _finite(elevation):
+                log.error(f_cores, line, "elevation", elevation, "is not a finite number")
+                ok = False
+        else:
+            elevation = None
+        known[cid] = {
+            "line": line,
+            "ok": ok,
+            "row": row,
+            "elevation": None if elevation is None else float(elevation),
+        }
+
+    # -- intervals -------------------------------------------------------------------------
+    by_core: dict[str, list[Interval]] = {cid: [] for cid in known}
+    bad_iv_cores: set[str] = set()
+    orphans: dict[tuple[str, str], list[int | None]] = {}
+    known_ids = list(scheme.ids) if scheme is not None else []
+    for row in _rows(intervals):
+        cid = _text(row.get("core_id"))
+        line = row["line"]
+        if not cid:
+            log.error(f_iv, line, "core_id", row.get("core_id"), "is empty")
+            continue
+        if cid not in known:
+            orphans.setdefault((f_iv, cid), []).append(line)
+            continue
+        top, base = row.get("top"), row.get("base")
+        ok = True
+        for col, value in (("top", top), ("base", base)):
+            if not _finite(value):
+                log.error(f_iv, line, col, value, "is not a finite number")
+                ok = False
+            elif value < 0:
+                log.error(
+                    f_iv,
+                    line,
+                    col,
+                    value,
+                    "is a negative depth",
+                    "depths are measured down from the core top",
+                )
+                ok = False
+        if ok and top >= base:
+            log.error(
+                f_iv,
+                line,
+                "base",
+                base,
+                f"is not below the top ({top!r})",
+                "each interval needs top < base (depth grows downward)",
+            )
+            ok = False
+        facies = _text(row.get("facies"))
+        rank = -1
+        if not facies:
+            log.error(f_iv, line, "facies", row.get("facies"), "is empty")
+            ok = False
+        elif scheme is not None:
+            r = scheme.rank(facies)
+            if r is None:
+                log.error(
+                    f_iv,
+                    line,
+                    "facies",
+                    facies,
+                    f"is not a facies of the {scheme.name!r} scheme",
+                    f"known ids: {known_ids} (or their aliases, any case)",
+                )
+                ok = False
+            else:
+                rank = r
+        if not ok:
+            bad_iv_cores.add(cid)
+            continue
+        by_core[cid].append(Interval(float(top), float(base), rank, facies, line))
+
+    for cid, ivs in by_core.items():
+        ivs.sort(key=lambda iv: (iv.top, iv.base))
+        gaps = []
+        kept: list[Interval] = []
+        for iv in ivs:
+            if kept and iv.top < kept[-1].base:
+                prev = kept[-1]
+                log.error(
+                    f_iv,
+                    iv.line,
+                    "top",
+                    iv.top,
+                    f"core {cid!r}: overlaps the interval {prev.top!r}-{prev.base!r} "
+                    f"on line {prev.line}",
+                    "intervals of one core must not overlap",
+                )
+                bad_iv_cores.add(cid)
+                continue
+            if kept and iv.top > kept[-1].base:
+                gaps.append((kept[-1].base, iv.top, iv.line))
+            kept.append(iv)
+        by_core[cid] = kept
+        if gaps:
+            listed = ", ".join(f"{a:g}-{b:g}" for a, b, _ in gaps)
+            log.warn(
+                f_iv,
+                gaps[0][2],
+                "top",
+                None,
+                f"core {cid!r} has {len(gaps)} gap(s) treated as no recovery: {listed}",
+            )
+        if not ivs and cid not in bad_iv_cores:
+            log.warn(
+                f_cores,
+                known[cid]["line"],
+                "core_id",
+                cid,
+                f"core has no intervals in {f_iv}",
+                "it has no record at any slice",
+            )
+
+    # -- picks -----------------------------------------------------------------------------
+    ages = {s.name: s for s in surfaces} if surfaces is not None else None
+    core_picks: dict[str, list[Pick]] = {cid: [] for cid in known}
+    first_line: dict[tuple[str, str], int | None] = {}
+    for row in _rows(picks):
+        cid = _text(row.get("core_id"))
+        line = row["line"]
+        if not cid:
+            log.error(f_picks, line, "core_id", row.get("core_id"), "is empty")
+            continue
+        if cid not in known:
+            orphans.setdefault((f_picks, cid), []).append(line)
+            continue
+        name = _text(row.get("surface"))
+        depth = row.get("depth")
+        ok = True
+        if not name:
+            log.error(f_picks, line, "surface", row.get("surface"), "is empty")
+            ok = False
+        elif ages is not None and name not in ages:
+            log.error(
+                f_picks,
+                line,
+                "surface",
+                name,
+                "is not a surface of the project",
+                f"surfaces in the project file: {list(ages)}",
+            )
+            ok = False
+        if not _finite(depth):
+            log.error(f_picks, line, "depth", depth, "is not a finite number")
+            ok = False
+        elif depth < 0:
+            log.error(
+                f_picks,
+                line,
+                "depth",
+                depth,
+                "is a negative depth",
+                "depths are measured down from the core top",
+            )
+            ok = False
+        if name and (cid, name) in first_line:
+            log.error(
+                f_picks,
+                line,
+                "surface",
+                name,
+                f"core {cid!r}: is picked twice (first on line {first_line[(cid, name)]})",
+                "pick each surface once per core",
+            )
+            continue
+        if name:
+            first_line[(cid, name)] = line
+        if not ok:
+            continue
+        depth = float(depth)
+        ivs = by_core[cid]
+        if cid not in bad_iv_cores:
+            if not ivs:
+                log.error(
+                    f_picks,
+                    line,
+                    "depth",
+                    depth,
+                    f"core {cid!r} has no logged intervals, so no pick can lie in it",
+                )
+                continue
+            if depth < ivs[0].top or depth > ivs[-1].base:
+                log.error(
+                    f_picks,
+                    line,
+                    "depth",
+                    depth,
+                    f"core {cid!r}: is outside the logged range {ivs[0].top:g}-{ivs[-1].base:g}",
+                    "a pick must lie within the core's logged intervals",
+                )
+                continue
+        core_picks[cid].append(Pick(name, depth, line))
+
+    for (fname, cid), lines in orphans.items():
+        shown = ", ".join(str(n) for n in lines[:8]) + (", ..." if len(lines) > 8 else "")
+        log.error(
+            fname,
+            lines[0],
+            "core_id",
+            cid,
+            f"is not in {f_cores} (lines {shown})",
+            "add the core to the cores table or correct the id",
+        )
+
+    if ages is not None:
+        for cid, plist in core_picks.items():
+            plist.sort(key=lambda p: (p.depth, ages[p.surface].age))
+            for upper, lower in zip(plist, plist[1:], strict=False):
+                su, sl = ages[upper.surface], ages[lower.surface]
+                if lower.depth > upper.depth and sl.age <= su.age:
+                    log.error(
+                        f_picks,
+                        lower.line,
+                        "depth",
+                        lower.depth,
+                        f"core {cid!r}: surface {sl.name!r} (age {sl.age:g}) lies below "
+                        f"surface {su.name!r} (age {su.age:g}, depth {upper.depth:g}, "
+                        f"line {upper.line}) but is not older",
+                        "a deeper surface must be older; check the picks and the ages",
+                    )
+                elif lower.depth == upper.depth and sl.age != su.age and not su.erosional:
+                    log.error(
+                        f_picks,
+                        lower.line,
+                        "depth",
+                        lower.depth,
+                        f"core {cid!r}: surfaces {su.name!r} and {sl.name!r} of "
+                        f"different ages are picked at one depth (line {upper.line})",
+                        f"only an erosional younger surface ({su.name!r}) may cut down "
+                        "onto an older one; mark it erosional = true or correct the pick",
+                    )
+    else:
+        for plist in core_picks.values():
+            plist.sort(key=lambda p: p.depth)
+
+    if own_log:
+        log.emit_warnings(stacklevel=3)
+        log.raise_if_errors()
+
+    out = []
+    for cid, info in known.items():
+        row = info["row"]
+        out.append(
+            Core(
+                cid,
+                float(row["easting"]) if _finite(row.get("easting")) else float("nan"),
+                float(row["northing"]) if _finite(row.get("northing")) else float("nan"),
+                info["elevation"],
+                tuple(by_core[cid]),
+                tuple(core_picks[cid]),
+                _float_or_nan(row.get("x", row.get("easting"))),
+                _float_or_nan(row.get("y", row.get("northing"))),
+                info["line"],
+            )
+        )
+    return tuple(out)
+
+
+def _rows(table) -> list[dict]:
+    """Records of a table with a ``line`` key (None when the table has no line column)."""
+    if table is None:
+        return []
+    records = table.to_dict("records") if hasattr(table, "to_dict") else list(table)
+    for rec in records:
+        line = rec.get("line")
+        rec["line"] = None if line is None or _isnan(line) else int(line)
+    return records
+
+
+def _text(value) -> str:
+    if value is None or _isnan(value):
+        return ""
+    return str(value).strip()
+
+
+def _isnan(value) -> bool:
+    return isinstance(value, float) and math.isnan(value)
+
+
+def _finite(value) -> bool:
+    return (
+        isinstance(value, (int, float, np.integer, np.floating))
+        and not isinstance(value, bool)
+        and math.isfinite(value)
+    )
+
+
+def _float_or_nan(value) -> float:
+    return float(value) if _finite(value) else float("nan")

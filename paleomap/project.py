@@ -7,24 +7,39 @@ stage reads only this value.
 
 from __future__ import annotations
 
-from dataclasses import dataclass, field
+import bisect
+import difflib
+import math
+import re
+import tomllib
+from collections.abc import Sequence
+from dataclasses import dataclass, field, replace
 from pathlib import Path
 
+import numpy as np
 import pyproj
+from pyproj.crs import CoordinateOperation, ProjectedCRS
 
 from .cores import Core
-from .errors import Problem
-from .scheme import Scheme
+from .errors import Problem, ProblemLog
+from .figures.palette import belt_colors
+from .scheme import _HEX, BUILTIN_SCHEMES, Belt, Scheme, _scheme_problems, builtin_scheme
 
 __all__ = [
     "AGE_UNITS",
     "DEPTH_UNITS",
+    "MAPPING_MODELS",
     "GridSettings",
     "MappingSettings",
     "MigrationSettings",
     "Project",
+    "ProjectConfig",
     "Slice",
     "Surface",
+    "TomlLocator",
+    "age_name",
+    "parse_config",
+    "working_crs_for",
 ]
 
 AGE_UNITS = {"ka": 1.0, "Ma": 1000.0}
@@ -184,3 +199,922 @@ class Project:
             if s.name == name:
                 return s
         raise KeyError(name)
+
+
+# ----------------------------------------------------------------------------------------
+# Reading the project file's text into typed settings
+# ----------------------------------------------------------------------------------------
+
+MAPPING_MODELS = ("auto", "exponential", "spherical", "gaussian", "matern32")
+"""Accepted ``[mapping] model`` values."""
+
+_TABLES = {
+    "project": ("name", "crs"),
+    "inputs": ("cores", "intervals", "picks", "depth_unit"),
+    "time": ("age_unit",),
+    "surfaces": ("name", "age", "age_sd", "erosional"),
+    "scheme": ("builtin", "belts", "track", "colors", "name"),
+    "slices": ("at",),
+    "grid": ("cell_size", "margin", "area"),
+    "mapping": (
+        "model",
+        "range_m",
+        "anisotropy",
+        "azimuth_deg",
+        "nugget",
+        "samples",
+        "burn_in",
+        "seed",
+        "deterministic",
+        "neighbours",
+    ),
+    "migration": ("transects", "transect_spacing_m", "stillstand_m_per_kyr"),
+}
+_BELT_KEYS = ("id", "marine", "aliases", "color", "label")
+_REQUIRED_TABLES = ("project", "inputs", "time", "surfaces", "scheme", "grid")
+
+
+@dataclass(frozen=True)
+class ProjectConfig:
+    """The project file's settings, validated but with the tables not yet read.
+
+    Produced by :func:`parse_config`; :func:`paleomap.io.readers.load_project` reads the
+    files it names. A setting that failed validation is ``None`` (the problem is in the
+    log), so the tables can still be checked in the same pass.
+
+    Parameters
+    ----------
+    file : str
+        The project file as named in messages.
+    name : str or None
+    crs : pyproj.CRS or None
+    cores, intervals, picks : str or None
+        Paths as written, relative to the project file.
+    depth_unit, age_unit : str or None
+    surfaces : tuple of Surface or None
+    scheme : Scheme or None
+    slices : tuple of Slice or None
+    grid : GridSettings or None
+        ``area`` is the path as written (relative).
+    mapping : MappingSettings
+    migration : MigrationSettings
+        ``transects`` is the path as written (relative).
+    lines : dict
+        TOML line of each input path key, e.g. ``{"inputs.cores": 6}``, for messages
+        about missing files.
+    """
+
+    file: str
+    name: str | None = None
+    crs: pyproj.CRS | None = None
+    cores: str | None = None
+    intervals: str | None = None
+    picks: str | None = None
+    depth_unit: str | None = None
+    age_unit: str | None = None
+    surfaces: tuple[Surface, ...] | None = None
+    scheme: Scheme | None = None
+    slices: tuple[Slice, ...] | None = None
+    grid: GridSettings | None = None
+    mapping: MappingSettings = field(default_factory=MappingSettings)
+    migration: MigrationSettings = field(default_factory=MigrationSettings)
+    lines: dict = field(default_factory=dict)
+
+
+def parse_config(
+    text: str, file: str = "project.toml", log: ProblemLog | None = None
+) -> ProjectConfig:
+    """Validate the text of a project file.
+
+    Every problem is reported with the file, the TOML line of the key and the dotted key
+    (``surfaces[2].age`` counts tables from 1). Unknown keys are errors that list the
+    allowed keys, so typos are caught.
+
+    Parameters
+    ----------
+    text : str
+        The TOML text.
+    file : str
+        Name of the file, for messages.
+    log : ProblemLog, optional
+        Collects the problems. Without one, an :class:`~paleomap.errors.InputError`
+        holding every problem is raised at the end.
+
+    Returns
+    -------
+    ProjectConfig
+
+    Examples
+    --------
+    >>> cfg = parse_config('''
+    ... [project]
+    ... name = "Demo"
+    ... crs = "EPSG:32631"
+    ... [inputs]
+    ... cores = "cores.csv"
+    ... intervals = "intervals.csv"
+    ... picks = "picks.csv"
+    ... depth_unit = "m"
+    ... [time]
+    ... age_unit = "ka"
+    ... [[surfaces]]
+    ... name = "top"
+    ... age = 100
+    ... [scheme]
+    ... builtin = "siliciclastic"
+    ... [grid]
+    ... cell_size = 250
+    ... ''')
+    >>> cfg.slices
+    (Slice(name='top', age=100.0, surface='top'),)
+    """
+    own_log = log is None
+    log = ProblemLog() if log is None else log
+    locate = TomlLocator(text)
+    try:
+        data = tomllib.loads(text)
+    except tomllib.TOMLDecodeError as exc:
+        message = str(exc)
+        m = re.search(r"\s*\(at line (\d+), column (\d+)\)\s*$", message)
+        line = int(m.group(1)) if m else None
+        if m:
+            message = message[: m.start()]
+        text_lines = text.splitlines()
+        bad = text_lines[line - 1].strip() if line and line <= len(text_lines) else None
+        log.error(
+            file,
+            line,
+            None,
+            bad,
+            f"is not valid TOML: {message}",
+            "check the quotes, brackets and '=' on that line",
+        )
+        if own_log:
+            log.raise_if_errors()
+        return ProjectConfig(file)
+    cfg = _ConfigReader(data, locate, file, log).read()
+    if own_log:
+        log.raise_if_errors()
+    return cfg
+
+
+def age_name(age: float, age_unit: str) -> str:
+    """Name of a slice at a free age: the age and its unit, e.g. ``"125ka"``.
+
+    >>> age_name(125.0, "ka"), age_name(2.5, "Ma")
+    ('125ka', '2.5Ma')
+    """
+    return f"{format(float(age), '.10g')}{age_unit}"
+
+
+def working_crs_for(
+    crs: pyproj.CRS, x: Sequence[float] = (), y: Sequence[float] = ()
+) -> pyproj.CRS:
+    """The projected CRS in which paleomap measures a project.
+
+    A projected CRS is its own working CRS (its horizontal part, for a compound CRS). A
+    geographic CRS gets a local azimuthal equidistant projection on the same datum,
+    centred on the mean position of the given points (``x`` longitudes, ``y``
+    latitudes, in degrees), so distances from the centre are true and distances across
+    a region of a few hundred kilometres are within a small fraction of a percent.
+
+    Examples
+    --------
+    >>> w = working_crs_for(pyproj.CRS("EPSG:4326"), [10.0, 12.0], [50.0, 52.0])
+    >>> w.is_projected, w.coordinate_operation.method_name
+    (True, 'Azimuthal Equidistant')
+    """
+    horizontal = _horizontal(crs)
+    if not horizontal.is_geographic:
+        return horizontal
+    lon = np.radians(np.asarray(x, dtype=float))
+    lat = np.radians(np.asarray(y, dtype=float))
+    if lon.size == 0:
+        raise ValueError("a geographic CRS needs core positions to centre the working CRS")
+    # Mean of unit vectors: a centre that is right across the antimeridian too.
+    vx = np.mean(np.cos(lat) * np.cos(lon))
+    vy = np.mean(np.cos(lat) * np.sin(lon))
+    vz = np.mean(np.sin(lat))
+    lat0 = float(np.degrees(np.arctan2(vz, np.hypot(vx, vy))))
+    lon0 = float(np.degrees(np.arctan2(vy, vx)))
+    # EPSG method 1125 (true azimuthal equidistant); pyproj's AzimuthalEquidistantConversion
+    # builds EPSG 9832, the "modified" approximation meant for small islands.
+    conversion = CoordinateOperation.from_json_dict(_aeqd_conversion(lat0, lon0))
+    return ProjectedCRS(
+        conversion=conversion,
+        geodetic_crs=horizontal.geodetic_crs,
+        name=f"paleomap local azimuthal equidistant ({lat0:.4f}, {lon0:.4f})",
+    )
+
+
+def _aeqd_conversion(lat0: float, lon0: float) -> dict:
+    def param(name, code, value, unit):
+        return {
+            "name": name,
+            "value": value,
+            "unit": unit,
+            "id": {"authority": "EPSG", "code": code},
+        }
+
+    return {
+        "type": "Conversion",
+        "name": "paleomap local azimuthal equidistant",
+        "method": {"name": "Azimuthal Equidistant", "id": {"authority": "EPSG", "code": 1125}},
+        "parameters": [
+            param("Latitude of natural origin", 8801, round(lat0, 6), "degree"),
+            param("Longitude of natural origin", 8802, round(lon0, 6), "degree"),
+            param("False easting", 8806, 0.0, "metre"),
+            param("False northing", 8807, 0.0, "metre"),
+        ],
+    }
+
+
+def _horizontal(crs: pyproj.CRS) -> pyproj.CRS:
+    if crs.is_compound:
+        for sub in crs.sub_crs_list:
+            if sub.is_projected or sub.is_geographic:
+                return sub
+    return crs
+
+
+def _crs_problem(crs: pyproj.CRS) -> tuple[str, str] | None:
+    """(message, hint) when paleomap cannot work in ``crs``, else None."""
+    horizontal = _horizontal(crs)
+    if horizontal.is_geographic:
+        return None
+    if not horizontal.is_projected:
+        return (
+            f"is a {crs.type_name} CRS, neither geographic nor projected",
+            "give a projected CRS in metres or a geographic CRS",
+        )
+    units = {a.unit_name for a in horizontal.axis_info}
+    factors = {a.unit_conversion_factor for a in horizontal.axis_info}
+    if factors != {1.0}:
+        return (
+            f"is projected in {', '.join(sorted(units))}, not metres",
+            "paleomap measures in metres: give the cores in a metre-based projected CRS "
+            "or in a geographic CRS (it is then projected locally)",
+        )
+    return None
+
+
+def _key(path: tuple) -> str:
+    """Dotted display form of a key path; array items count from 1."""
+    out = ""
+    for part in path:
+        if isinstance(part, int):
+            out += f"[{part + 1}]"
+        else:
+            out += ("." if out else "") + part
+    return out
+
+
+class _ConfigReader:
+    """Walks the parsed TOML, checking types, ranges and names key by key."""
+
+    def __init__(self, data: dict, locate: TomlLocator, file: str, log: ProblemLog):
+        self.data = data
+        self.locate = locate
+        self.file = file
+        self.log = log
+
+    # -- reporting ---------------------------------------------------------------------
+    def err(self, path: tuple, value, message: str, hint: str | None = None) -> None:
+        self.log.error(self.file, self.locate.line_of(path), _key(path), value, message, hint)
+
+    def warn(self, path: tuple, value, message: str, hint: str | None = None) -> None:
+        self.log.warn(self.file, self.locate.line_of(path), _key(path), value, message, hint)
+
+    def check_keys(self, table: dict, path: tuple, allowed: tuple[str, ...], what: str) -> None:
+        for key in table:
+            if key not in allowed:
+                close = difflib.get_close_matches(key, allowed, n=1)
+                hint = f"did you mean {close[0]!r}? " if close else ""
+                hint += f"allowed keys in {what}: {', '.join(allowed)}"
+                self.err((*path, key), key, "is not a known key", hint)
+
+    def table(self, name: str) -> dict | None:
+        value = self.data.get(name)
+        if value is None:
+            return None
+        if not isinstance(value, dict):
+            self.err((name,), value, f"must be a table [{name}]")
+            return None
+        self.check_keys(value, (name,), _TABLES[name], f"[{name}]")
+        return value
+
+    # -- typed values ------------------------------------------------------------------
+    def text(self, table, path, key, required=True, choices=None) -> str | None:
+        if key not in table:
+            if required:
+                hint = f"choose one of {list(choices)}" if choices else None
+                self.err((*path, key), None, "is missing", hint)
+            return None
+        value = table[key]
+        if not isinstance(value, str) or not value.strip():
+            self.err((*path, key), value, "must be a non-empty text in quotes")
+            return None
+        if choices is not None and value not in choices:
+            self.err((*path, key), value, "is not allowed", f"choose one of {list(choices)}")
+            return None
+        return value.strip()
+
+    def number(
+        self,
+        table,
+        path,
+        key,
+        required=False,
+        minimum=None,
+        maximum=None,
+        min_open=False,
+        max_open=False,
+        integer=False,
+    ):
+        if key not in table:
+            if required:
+                self.err((*path, key), None, "is missing")
+            return None
+        value = table[key]
+        kind = "a whole number" if integer else "a number"
+        ok_type = isinstance(value, int) if integer else isinstance(value, (int, float))
+        if isinstance(value, bool) or not ok_type:
+            self.err((*path, key), value, f"must be {kind}")
+            return None
+        if not math.isfinite(value):
+            self.err((*path, key), value, "must be a finite number")
+            return None
+        low_bad = minimum is not None and (value <= minimum if min_open else value < minimum)
+        high_bad = maximum is not None and (value >= maximum if max_open else value > maximum)
+        if low_bad or high_bad:
+            lo = "" if minimum is None else ("(" if min_open else "[") + f"{minimum:g}"
+            hi = "" if maximum is None else f"{maximum:g}" + (")" if max_open else "]")
+            if minimum is not None and maximum is not None:
+                allowed = f"{lo}, {hi}"
+            elif minimum is not None:
+                allowed = f"{'>' if min_open else '>='} {minimum:g}"
+            else:
+                allowed = f"{'<' if max_open else '<='} {maximum:g}"
+            self.err((*path, key), value, "is out of range", f"allowed: {allowed}")
+            return None
+        return int(value) if integer else float(value)
+
+    def boolean(self, table, path, key, default=None):
+        if key not in table:
+            return default
+        value = table[key]
+        if not isinstance(value, bool):
+            self.err((*path, key), value, "must be true or false (no quotes)")
+            return default
+        return value
+
+    # -- sections ----------------------------------------------------------------------
+    def read(self) -> ProjectConfig:
+        for key in self.data:
+            if key not in _TABLES:
+                close = difflib.get_close_matches(key, list(_TABLES), n=1)
+                hint = f"did you mean [{close[0]}]? " if close else ""
+                hint += f"allowed tables: {', '.join(f'[{t}]' for t in _TABLES)}"
+                self.err((key,), key, "is not a known table", hint)
+        for name in _REQUIRED_TABLES:
+            if name not in self.data:
+                what = "[[surfaces]]" if name == "surfaces" else f"[{name}]"
+                self.log.error(
+                    self.file,
+                    None,
+                    name,
+                    None,
+                    f"the table {what} is missing",
+                    "see docs/inputs.md for a complete example",
+                )
+
+        out: dict = {}
+        project = self.table("project") or {}
+        out["name"] = self.text(project, ("project",), "name") if "project" in self.data else None
+        out["crs"] = self.read_crs(project) if "project" in self.data else None
+
+        inputs = self.table("inputs") or {}
+        lines = {}
+        if "inputs" in self.data:
+            for key in ("cores", "intervals", "picks"):
+                out[key] = self.text(inputs, ("inputs",), key)
+                lines[f"inputs.{key}"] = self.locate.line_of(("inputs", key))
+            out["depth_unit"] = self.text(
+                inputs, ("inputs",), "depth_unit", choices=tuple(DEPTH_UNITS)
+            )
+        time = self.table("time") or {}
+        if "time" in self.data:
+            out["age_unit"] = self.text(time, ("time",), "age_unit", choices=tuple(AGE_UNITS))
+
+        out["surfaces"] = self.read_surfaces(out.get("age_unit"))
+        out["scheme"] = self.read_scheme()
+        out["slices"] = self.read_slices(out["surfaces"], out.get("age_unit"))
+        out["grid"] = self.read_grid(lines)
+        out["mapping"] = self.read_mapping()
+        out["migration"] = self.read_migration(lines)
+        return ProjectConfig(self.file, lines=lines, **out)
+
+    def read_crs(self, project: dict) -> pyproj.CRS | None:
+        text = self.text(project, ("project",), "crs")
+        if text is None:
+            if "crs" not in project:
+                # Replace the generic message with one that says why.
+                self.log.errors.pop()
+                self.err(
+                    ("project", "crs"),
+                    None,
+                    "is missing: paleomap never assumes a CRS",
+                    'give any CRS pyproj reads, e.g. crs = "EPSG:32631" or "EPSG:4326"',
+                )
+            return None
+        try:
+            crs = pyproj.CRS.from_user_input(text)
+        except pyproj.exceptions.CRSError:
+            self.err(
+                ("project", "crs"),
+                text,
+                "is not a CRS pyproj knows",
+                'give an EPSG code such as "EPSG:32631", a WKT or a PROJ string',
+            )
+            return None
+        problem = _crs_problem(crs)
+        if problem is not None:
+            self.err(("project", "crs"), text, *problem)
+            return None
+        return crs
+
+    def read_surfaces(self, age_unit: str | None) -> tuple[Surface, ...] | None:
+        raw = self.data.get("surfaces")
+        if raw is None:
+            return None
+        if not isinstance(raw, list) or not all(isinstance(s, dict) for s in raw):
+            self.err(("surfaces",), None, "must be written as [[surfaces]] tables")
+            return None
+        if not raw:
+            self.err(("surfaces",), None, "lists no surface")
+            return None
+        unit = age_unit or "age unit"
+        out: list[Surface] = []
+        seen: dict[str, int] = {}
+        ok = True
+        for i, table in enumerate(raw):
+            path = ("surfaces", i)
+            self.check_keys(table, path, _TABLES["surfaces"], "[[surfaces]]")
+            name = self.text(table, path, "name")
+            age = self.number(table, path, "age", required=True, minimum=0, min_open=True)
+            if "age" in table and age is None and isinstance(table["age"], (int, float)):
+                # Replace the range message with the contract's wording.
+                self.log.errors.pop()
+                self.err(
+                    (*path, "age"),
+                    table["age"],
+                    "is not a positive number",
+                    f"ages are in {unit}, positive into the past",
+                )
+            age_sd = self.number(table, path, "age_sd", minimum=0)
+            if "age_sd" in table and age_sd is None and isinstance(table["age_sd"], (int, float)):
+                self.log.errors.pop()
+                self.err(
+                    (*path, "age_sd"),
+                    table["age_sd"],
+                    "is negative",
+                    "an age standard deviation is zero or positive",
+                )
+            erosional = self.boolean(table, path, "erosional", default=False)
+            if name is not None and name in seen:
+                self.err(
+                    (*path, "name"),
+                    name,
+                    f"is used by two surfaces (also surface {seen[name] + 1})",
+                    "give each surface its own name",
+                )
+                name = None
+            if name is None or age is None:
+                ok = False
+                continue
+            seen[name] = i
+            out.append(Surface(name, age, age_sd or 0.0, erosional, self.locate.line_of(path)))
+        return tuple(out) if ok else None
+
+    def read_scheme(self) -> Scheme | None:
+        table = self.table("scheme")
+        if table is None:
+            return None
+        path = ("scheme",)
+        has_builtin, has_belts = "builtin" in table, "belts" in table
+        if has_builtin == has_belts:
+            self.err(
+                path,
+                None,
+                "needs exactly one of 'builtin' and 'belts'",
+                f"write builtin = one of {list(BUILTIN_SCHEMES)}, or list belts = [{{ id = "
+                '"...", marine = false }, ...] proximal to distal',
+            )
+            return None
+        track = None
+        if "track" in table:
+            value = table["track"]
+            if (
+                not isinstance(value, list)
+                or len(value) != 2
+                or not all(isinstance(v, str) for v in value)
+            ):
+                self.err(
+                    (*path, "track"),
+                    value,
+                    "must name two belts",
+                    'write track = ["proximal_belt", "distal_belt"]',
+                )
+                return None
+            track = (value[0].strip(), value[1].strip())
+        colors = table.get("colors", {})
+        if not isinstance(colors, dict):
+            self.err(
+                (*path, "colors"),
+                colors,
+                "must be a table of belt ids and colours",
+                'write colors = { gravel = "#6b4423" }',
+            )
+            return None
+        name = self.text(table, path, "name", required=False)
+
+        if has_builtin:
+            builtin = self.text(table, path, "builtin", choices=BUILTIN_SCHEMES)
+            if builtin is None:
+                return None
+            base = builtin_scheme(builtin)
+            belts = list(base.belts)
+            name = name or base.name
+            family = base.family
+            if track is None:
+                track = base.track
+        else:
+            belts = self.read_belts(table["belts"])
+            if belts is None:
+                return None
+            name = name or "custom"
+            family = "custom"
+
+        ids = [b.id for b in belts]
+        ok = True
+        for belt_id, color in colors.items():
+            if belt_id not in ids:
+                self.err(
+                    (*path, "colors", belt_id),
+                    belt_id,
+                    "is not a belt of the scheme",
+                    f"belts: {ids}",
+                )
+                ok = False
+            elif not isinstance(color, str) or not _HEX.match(color):
+                self.err((*path, "colors", belt_id), color, "is not a colour", 'write "#rrggbb"')
+                ok = False
+            else:
+                i = ids.index(belt_id)
+                belts[i] = replace(belts[i], color=color)
+        if not ok:
+            return None
+        problems = _scheme_problems(tuple(belts), track, "scheme")
+        for p in problems:
+            parts = tuple(p.column.split(".")) if p.column else path
+            self.log.error(
+                self.file, self.locate.line_of(parts), p.column, p.value, p.message, p.hint
+            )
+        if problems:
+            return None
+        return Scheme(name, tuple(belts), track, family)
+
+    def read_belts(self, raw) -> list[Belt] | None:
+        path = ("scheme", "belts")
+        if not isinstance(raw, list) or not all(isinstance(b, dict) for b in raw):
+            self.err(
+                path,
+                None,
+                "must be a list of belt tables",
+                'write belts = [{ id = "sand", marine = false }, ...]',
+            )
+            return None
+        belts: list[Belt] = []
+        ok = True
+        # Belts without a colour get the default palette's colour for their place.
+        flags = [t.get("marine") is True for t in raw]
+        palette = belt_colors(flags) if raw else ()
+        for i, table in enumerate(raw):
+            bpath = (*path, i)
+            self.check_keys(table, bpath, _BELT_KEYS, "a belt")
+            belt_id = self.text(table, bpath, "id")
+            if "marine" not in table:
+                self.err(
+                    (*bpath, "marine"), None, "is missing", "write marine = true or marine = false"
+                )
+                marine = None
+            else:
+                marine = self.boolean(table, bpath, "marine")
+            aliases = table.get("aliases", [])
+            if not isinstance(aliases, list) or not all(
+                isinstance(a, str) and a.strip() for a in aliases
+            ):
+                self.err(
+                    (*bpath, "aliases"),
+                    aliases,
+                    "must be a list of names",
+                    'write aliases = ["name", ...]',
+                )
+                aliases = None
+            color = table.get("color", palette[i])
+            if not isinstance(color, str) or not _HEX.match(color):
+                self.err((*bpath, "color"), color, "is not a colour", 'write "#rrggbb"')
+                color = None
+            label = self.text(table, bpath, "label", required=False)
+            if belt_id is not None and label is None:
+                label = belt_id.replace("_", " ")
+            if belt_id is None or marine is None or aliases is None or color is None:
+                ok = False
+                continue
+            belts.append(
+                Belt(belt_id, marine, tuple(a.strip() for a in aliases), color, label or "")
+            )
+        return belts if ok else None
+
+    def read_slices(self, surfaces, age_unit) -> tuple[Slice, ...] | None:
+        table = self.table("slices")
+        at = "surfaces" if table is None or "at" not in table else table["at"]
+        path = ("slices", "at")
+        if surfaces is None:
+            return None
+        unit = age_unit or ""
+        by_name = {s.name: s for s in surfaces}
+        if isinstance(at, str):
+            if at != "surfaces":
+                self.err(
+                    path,
+                    at,
+                    "is not allowed",
+                    'write at = "surfaces" or a list of ages, e.g. at = [120, 135.5]',
+                )
+                return None
+            items = [Slice(s.name, s.age, s.name) for s in surfaces]
+        elif isinstance(at, list) and at:
+            items = []
+            for i, value in enumerate(at):
+                if isinstance(value, str):
+                    s = by_name.get(value)
+                    if s is None:
+                        self.err(
+                            (*path, i),
+                            value,
+                            "is not a surface name",
+                            f"surfaces: {list(by_name)}; free ages are plain numbers "
+                            f"in {unit or 'the age unit'}",
+                        )
+                        continue
+                    items.append(Slice(s.name, s.age, s.name))
+                elif isinstance(value, (int, float)) and not isinstance(value, bool):
+                    if not math.isfinite(value) or value <= 0:
+                        self.err(
+                            (*path, i),
+                            value,
+                            "is not a positive number",
+                            "slice ages are positive into the past",
+                        )
+                        continue
+                    # A free age that is a surface's age is that surface's slice.
+                    same = [s for s in surfaces if s.age == float(value)]
+                    if same:
+                        items.append(Slice(same[0].name, same[0].age, same[0].name))
+                    else:
+                        items.append(Slice(age_name(value, unit), float(value), None))
+                else:
+                    self.err((*path, i), value, "must be an age or a surface name")
+        else:
+            self.err(path, at, 'must be "surfaces" or a non-empty list of ages')
+            return None
+        seen: dict[str, Slice] = {}
+        for sl in items:
+            if sl.name in seen:
+                i = (
+                    next(
+                        (j for j, v in enumerate(at) if v == sl.name or v == sl.age),
+                        None,
+                    )
+                    if isinstance(at, list)
+                    else None
+                )
+                self.err(
+                    path if i is None else (*path, i),
+                    sl.name,
+                    "is listed twice",
+                    "list each slice once",
+                )
+                continue
+            seen[sl.name] = sl
+        # Oldest first: the order in which the slices formed.
+        return tuple(sorted(seen.values(), key=lambda s: -s.age))
+
+    def read_grid(self, lines: dict) -> GridSettings | None:
+        table = self.table("grid")
+        if table is None:
+            return None
+        path = ("grid",)
+        cell = self.number(table, path, "cell_size", required=True, minimum=0, min_open=True)
+        margin = self.number(table, path, "margin", minimum=0)
+        area = self.text(table, path, "area", required=False)
+        lines["grid.area"] = self.locate.line_of(("grid", "area"))
+        if cell is None or (margin is None and "margin" in table):
+            return None
+        if "area" in table and area is None:
+            return None
+        return GridSettings(cell, margin, Path(area) if area else None)
+
+    def read_mapping(self) -> MappingSettings:
+        table = self.table("mapping")
+        if table is None:
+            return MappingSettings()
+        p = ("mapping",)
+        d = MappingSettings()
+        values = {
+            "model": self.text(table, p, "model", required=False, choices=MAPPING_MODELS),
+            "range_m": self.number(table, p, "range_m", minimum=0, min_open=True),
+            "anisotropy": self.number(table, p, "anisotropy", minimum=0, maximum=1, min_open=True),
+            "azimuth_deg": self.number(
+                table, p, "azimuth_deg", minimum=0, maximum=360, max_open=True
+            ),
+            "nugget": self.number(table, p, "nugget", minimum=0, maximum=1, max_open=True),
+            "samples": self.number(table, p, "samples", minimum=1, integer=True),
+            "burn_in": self.number(table, p, "burn_in", minimum=0, integer=True),
+            "seed": self.number(table, p, "seed", minimum=0, integer=True),
+            "deterministic": self.boolean(table, p, "deterministic"),
+            "neighbours": self.number(table, p, "neighbours", minimum=3, integer=True),
+        }
+        return replace(d, **{k: v for k, v in values.items() if v is not None})
+
+    def read_migration(self, lines: dict) -> MigrationSettings:
+        table = self.table("migration")
+        if table is None:
+            return MigrationSettings()
+        p = ("migration",)
+        transects = self.text(table, p, "transects", required=False)
+        lines["migration.transects"] = self.locate.line_of(("migration", "transects"))
+        values = {
+            "transects": Path(transects) if transects else None,
+            "transect_spacing_m": self.number(
+                table, p, "transect_spacing_m", minimum=0, min_open=True
+            ),
+            "stillstand_m_per_kyr": self.number(table, p, "stillstand_m_per_kyr", minimum=0),
+        }
+        return replace(MigrationSettings(), **{k: v for k, v in values.items() if v is not None})
+
+
+class TomlLocator:
+    """Finds the line of a key in TOML text, for messages.
+
+    A key path is a tuple of table and key names and 0-based array indices, e.g.
+    ``("surfaces", 1, "age")`` or ``("scheme", "belts", 2, "color")``. Works for
+    ``[table]`` and ``[[array]]`` headers, plain keys and inline arrays of inline tables;
+    when a key is absent the line of its table is returned, and None when even that is
+    absent.
+
+    Examples
+    --------
+    >>> text = "[grid]\\ncell_size = 5\\n[[surfaces]]\\nage = 1\\n[[surfaces]]\\nage = 2\\n"
+    >>> loc = TomlLocator(text)
+    >>> loc.line_of(("grid", "cell_size")), loc.line_of(("surfaces", 1, "age"))
+    (2, 6)
+    """
+
+    _HEADER = re.compile(r"^\s*(\[\[?)([^\[\]]+)\]\]?\s*(#.*)?$")
+
+    def __init__(self, text: str):
+        self.text = text
+        self.lines = text.splitlines()
+        self.starts = [0]
+        for line in text.splitlines(keepends=True):
+            self.starts.append(self.starts[-1] + len(line))
+        # (line index, parts, is_array)
+        self.headers: list[tuple[int, tuple[str, ...], bool]] = []
+        for i, line in enumerate(self.lines):
+            m = self._HEADER.match(line)
+            if m and "=" not in line.split("]")[0]:
+                parts = tuple(p.strip().strip("\"'") for p in m.group(2).split("."))
+                self.headers.append((i, parts, m.group(1) == "[["))
+
+    def line_of(self, path: tuple) -> int | None:
+        """1-based line of ``path``, the line of its table, or None."""
+        for j in range(len(path), -1, -1):
+            region = self._region(tuple(path[:j]))
+            if region is None:
+                continue
+            header_line, start, end = region
+            found = self._in_region(start, end, tuple(path[j:]))
+            return found if found is not None else header_line
+        return None
+
+    def _region(self, head: tuple):
+        """(header line or None, first line index, end line index) of a table."""
+        if not head:
+            end = self.headers[0][0] if self.headers else len(self.lines)
+            return None, 0, end
+        if any(isinstance(p, int) for p in head[:-1]):
+            return None
+        if isinstance(head[-1], int):
+            parts, want, array = tuple(head[:-1]), head[-1], True
+        else:
+            parts, want, array = tuple(head), 0, False
+        count = 0
+        for k, (i, hparts, is_array) in enumerate(self.headers):
+            if hparts == parts and is_array == array:
+                if count == want:
+                    end = self.headers[k + 1][0] if k + 1 < len(self.headers) else len(self.lines)
+                    return i + 1, i + 1, end
+                count += 1
+        return None
+
+    def _in_region(self, start: int, end: int, rest: tuple) -> int | None:
+        if not rest:
+            return None
+        key = rest[0]
+        if not isinstance(key, str):
+            return None
+        pattern = re.compile(
+            rf"^\s*(?:{re.escape(key)}|\"{re.escape(key)}\"|'{re.escape(key)}')\s*="
+        )
+        for i in range(start, end):
+            m = pattern.match(self.lines[i])
+            if m:
+                if len(rest) == 1:
+                    return i + 1
+                offset = self.starts[i] + m.end()
+                return self._in_value(offset, rest[1:], i + 1)
+        return None
+
+    def _in_value(self, offset: int, rest: tuple, fallback: int) -> int:
+        """Line of an array element or inline-table key inside a value starting at offset."""
+        text = self.text
+        span = self._element_span(offset, rest[0]) if isinstance(rest[0], int) else None
+        if isinstance(rest[0], int):
+            if span is None:
+                return fallback
+            a, b = span
+            if len(rest) == 1:
+                return self._line_at(a)
+            key = rest[1]
+            if isinstance(key, str):
+                m = re.search(rf"(?:^|[{{,\s]){re.escape(key)}\s*=", text[a:b])
+                if m:
+                    return self._line_at(a + m.end() - 1)
+            return self._line_at(a)
+        # An inline-table key, e.g. colors = { gravel = "#..." }.
+        key = rest[0]
+        end = text.find("\n", offset)
+        m = re.search(
+            rf"(?:^|[{{,\s]){re.escape(key)}\s*=", text[offset : end if end > 0 else None]
+        )
+        return self._line_at(offset + m.start()) if m else fallback
+
+    def _element_span(self, offset: int, index: int):
+        text = self.text
+        n = len(text)
+        i = offset
+        while i < n and text[i] in " \t":
+            i += 1
+        if i >= n or text[i] != "[":
+            return None
+        i += 1
+        depth = 1
+        count = 0
+        begin = None
+        while i < n:
+            c = text[i]
+            if c in "\"'":
+                if begin is None and depth == 1:
+                    begin = i
+                quote = text[i : i + 3] if text[i : i + 3] in ('"""', "'''") else c
+                j = i + len(quote)
+                while j < n and text[j : j + len(quote)] != quote:
+                    j += 2 if (c == '"' and text[j] == "\\") else 1
+                i = j + len(quote)
+                continue
+            if c == "#":
+                while i < n and text[i] != "\n":
+                    i += 1
+                continue
+            if c in "[{":
+                if begin is None and depth == 1:
+                    begin = i
+                depth += 1
+            elif c in "]}":
+                depth -= 1
+                if depth == 0:
+                    return (begin, i) if begin is not None and count == index else None
+            elif c == "," and depth == 1:
+                if count == index and begin is not None:
+                    return begin, i
+                count += 1
+                begin = None
+            elif not c.isspace() and begin is None and depth == 1:
+                begin = i
+            i += 1
+        return None
+
+    def _line_at(self, offset: int) -> int:
+        return bisect.bisect_right(self.starts, offset)
