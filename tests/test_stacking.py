@@ -13,6 +13,7 @@ import pandas as pd
 import pyproj
 import pytest
 
+from paleomap.agemodel import build_age_models
 from paleomap.cores import Core, Interval, Pick
 from paleomap.project import GridSettings, Project, Surface
 from paleomap.scheme import builtin_scheme
@@ -45,23 +46,6 @@ def _core(core_id, ranks_top_down, thickness=2.0, picks=(), gaps=(), easting=0.0
     return Core(core_id, easting, 0.0, intervals=tuple(ivs), picks=pk)
 
 
-class _LinearAgeModel:
-    """Piecewise-linear age-depth through the core's picks; NaN outside them."""
-
-    def __init__(self, core, surfaces):
-        ages = {s.name: s.age for s in surfaces}
-        pts = sorted((p.depth, ages[p.surface]) for p in core.picks)
-        self.d = np.array([p[0] for p in pts])
-        self.a = np.array([p[1] for p in pts])
-
-    def age_at(self, depth):
-        depth = np.asarray(depth, dtype=float)
-        if len(self.d) < 2:
-            return np.full(depth.shape, np.nan)
-        out = np.interp(depth, self.d, self.a)
-        return np.where((depth < self.d[0]) | (depth > self.d[-1]), np.nan, out)
-
-
 def _project(cores, surfaces=(), scheme="siliciclastic", depth_unit="m"):
     crs = pyproj.CRS.from_user_input("EPSG:32631")
     return Project(
@@ -80,9 +64,9 @@ def _project(cores, surfaces=(), scheme="siliciclastic", depth_unit="m"):
 
 
 def _read(cores, surfaces=(), **kw):
+    # Age models come from paleomap.agemodel (read_cores builds them when not given).
     project = _project(cores, surfaces, **kw)
-    models = {c.core_id: _LinearAgeModel(c, project.surfaces) for c in project.cores}
-    return read_cores(project, models), project
+    return read_cores(project), project
 
 
 # --- trends: facts of the trade ------------------------------------------------------
@@ -442,7 +426,7 @@ def test_summary_lines_list_breaks_and_intervals():
 def test_settings_change_thresholds():
     core = _core("C1", [FINE, SILT, FINE])  # a one-rank excursion
     project = _project([core])
-    models = {"C1": _LinearAgeModel(core, ())}
+    models = build_age_models(project)
     loose = read_cores(project, models, ReadingSettings(min_change=1))
     strict = read_cores(project, models)
     assert loose.turnarounds["kind"].tolist() == ["MFS"]
