@@ -12,6 +12,8 @@ import numpy as np
 import pandas as pd
 import pyproj
 import pytest
+from hypothesis import given, settings
+from hypothesis import strategies as st
 
 from paleomap.agemodel import build_age_models
 from paleomap.cores import Core, Interval, Pick
@@ -431,3 +433,51 @@ def test_settings_change_thresholds():
     strict = read_cores(project, models)
     assert loose.turnarounds["kind"].tolist() == ["MFS"]
     assert strict.turnarounds.empty
+
+
+def test_long_profile_is_resampled_for_the_fit():
+    # 3000 intervals grading proximal to distal upward (top down: distal first).
+    n = 3000
+    ranks = np.repeat(np.arange(4, -1, -1), n // 5)
+    p = RankProfile.from_arrays(np.arange(n) * 0.5, np.arange(1, n + 1) * 0.5, ranks)
+    t = classify_trend(p)
+    assert t.trend == "deepening-upward"
+    assert t.n_intervals == n
+    assert 3.0 < t.rank_change < 6.0
+
+
+# --- properties ----------------------------------------------------------------------
+
+_profiles = st.lists(st.tuples(st.floats(0.1, 10.0), st.integers(0, 4)), min_size=1, max_size=25)
+
+
+def _from_pairs(pairs, mirror=False):
+    th = np.array([p[0] for p in pairs])
+    r = np.array([p[1] for p in pairs])
+    base = np.cumsum(th)
+    return RankProfile.from_arrays(base - th, base, 4 - r if mirror else r)
+
+
+@settings(max_examples=150, deadline=None)
+@given(_profiles)
+def test_mirroring_the_ranks_swaps_the_readings(pairs):
+    # Common practice: deepening and shallowing, MFS and MRS are mirror images.
+    p, q = _from_pairs(pairs), _from_pairs(pairs, mirror=True)
+    swap = {"deepening-upward": "shallowing-upward", "shallowing-upward": "deepening-upward"}
+    tp, tq = classify_trend(p), classify_trend(q)
+    assert tq.trend == swap.get(tp.trend, tp.trend)
+    kinds = {"MFS": "MRS", "MRS": "MFS"}
+    fp, fq = find_turnarounds(p), find_turnarounds(q)
+    assert [(kinds[t.kind], t.depth) for t in fp] == [(t.kind, t.depth) for t in fq]
+
+
+@settings(max_examples=150, deadline=None)
+@given(_profiles, st.integers(1, 3))
+def test_turnarounds_alternate_and_have_min_change_both_sides(pairs, h):
+    turns = find_turnarounds(_from_pairs(pairs), min_change=h)
+    kinds = [t.kind for t in turns]
+    assert all(a != b for a, b in zip(kinds, kinds[1:], strict=False))
+    assert all(t.change_below >= h and t.change_above >= h for t in turns)
+    assert all(t.depth_top <= t.depth <= t.depth_base for t in turns)
+    p = _from_pairs(pairs)
+    assert all(p.tops[0] < t.depth < p.bases[-1] for t in turns)

@@ -18,6 +18,9 @@ For a rank profile (a whole core, or the part of it between two picks):
    ``b`` times the height between the lowest and highest midpoints. If it is at least
    ``min_trend`` ranks (default 0.5) the trend is ``"deepening-upward"`` (``b > 0``,
    more distal upward) or ``"shallowing-upward"`` (``b < 0``); else ``"aggrading"``.
+   A profile of more than 2000 intervals is first resampled to 2000 equal-height cells
+   (each taking the rank logged at its middle; cells in a gap are dropped), which keeps
+   the thickness weighting and bounds the pair count (memory grows with its square).
 
 Ranks grow distal, so deepening-upward is transgressive and, in a siliciclastic scheme
 whose belts fine distally, fining-upward; shallowing-upward is regressive and
@@ -51,6 +54,8 @@ __all__ = [
 
 TREND_CLASSES = ("deepening-upward", "shallowing-upward", "aggrading", "mixed")
 """The stacking trend classes; ``""`` stands for no record."""
+
+_MAX_FIT = 2000
 
 _GRAIN = {"deepening-upward": "fining-upward", "shallowing-upward": "coarsening-upward"}
 _SENSE = {"deepening-upward": "transgressive", "shallowing-upward": "regressive"}
@@ -146,14 +151,25 @@ def classify_trend(
     r = profile.ranks
     if r.min() == r.max():
         return Trend("aggrading", 0.0, 0.0, n)
-    u = -profile.mids
-    b = weighted_theil_sen(u, r, profile.thicknesses)
-    change = b * (u.max() - u.min())
+    u, rr, w = -profile.mids, r, profile.thicknesses
+    if n > _MAX_FIT:
+        u, rr, w = _resampled(profile, _MAX_FIT)
+    b = weighted_theil_sen(u, rr, w) + 0.0  # + 0.0 turns -0.0 into 0.0
+    change = float(b * (u.max() - u.min())) + 0.0
     if find_turnarounds(profile, min_change, spike_fraction):
         return Trend("mixed", b, change, n)
     if abs(change) < min_trend:
         return Trend("aggrading", b, change, n)
     return Trend("deepening-upward" if b > 0 else "shallowing-upward", b, change, n)
+
+
+def _resampled(profile: RankProfile, cells: int):
+    edges = np.linspace(profile.tops[0], profile.bases[-1], cells + 1)
+    mids = 0.5 * (edges[:-1] + edges[1:])
+    k = np.searchsorted(profile.tops, mids, side="right") - 1
+    inside = (k >= 0) & (mids < profile.bases[np.clip(k, 0, None)])
+    height = np.full(int(inside.sum()), edges[1] - edges[0])
+    return -mids[inside], profile.ranks[k[inside]], height
 
 
 def grain_word(trend: str, family: str) -> str:
