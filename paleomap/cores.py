@@ -10,6 +10,7 @@ user's tables (and validating them) is :func:`build_cores`.
 from __future__ import annotations
 
 import math
+import re
 from collections.abc import Mapping, Sequence
 from dataclasses import dataclass
 from typing import TYPE_CHECKING
@@ -24,7 +25,7 @@ if TYPE_CHECKING:  # only for annotations: project.py imports this module
     from .project import Surface
     from .scheme import Scheme
 
-__all__ = ["Core", "Interval", "Pick", "build_cores"]
+__all__ = ["Core", "Interval", "Pick", "build_cores", "parse_number"]
 
 
 @dataclass(frozen=True)
@@ -151,12 +152,17 @@ def build_cores(
     Parameters
     ----------
     cores : pandas.DataFrame
-        Columns ``core_id``, ``easting``, ``northing`` (working CRS) and optionally
-        ``x``, ``y`` (as given), ``elevation`` and ``line`` (source line for messages).
+        Columns ``core_id``, ``x``, ``y`` (as given) and optionally ``easting``,
+        ``northing`` (working CRS; default ``x``, ``y``; NaN where projection failed),
+        ``elevation`` and ``line`` (source line for messages). Either ``x, y`` or
+        ``easting, northing`` must be present.
     intervals : pandas.DataFrame
         Columns ``core_id``, ``top``, ``base``, ``facies`` and optionally ``line``.
     picks : pandas.DataFrame
         Columns ``core_id``, ``surface``, ``depth`` and optionally ``line``.
+
+        Cells may be numbers or text as read from a CSV file (see :func:`parse_number`);
+        every cell that is not a finite number is reported.
     scheme : Scheme or None
         Facies are matched to its belt ids and aliases, ignoring case. None skips the
         facies check (used when the scheme itself failed validation; ranks are then -1).
@@ -227,22 +233,34 @@ def build_cores(
             )
             continue
         ok = True
-        for col in ("easting", "northing"):
-            if not _finite(row.get(col)):
-                log.error(f_cores, line, col, row.get(col), "is not a finite coordinate")
-                ok = False
-        elevation = row.get("elevation")
-        if elevation is not None and not (isinstance(elevation, float) and math.isnan(elevation)):
-            if not _finite(elevation):
-                log.error(f_cores, line, "elevation", elevation, "is not a finite number")
-                ok = False
-        else:
-            elevation = None
+        x = _number(row, "x" if "x" in row else "easting", f_cores, line, log)
+        y = _number(row, "y" if "y" in row else "northing", f_cores, line, log)
+        easting, northing = row.get("easting", x), row.get("northing", y)
+        if x is None or y is None:
+            ok = False
+        elif not (_finite(easting) and _finite(northing)):
+            log.error(
+                f_cores,
+                line,
+                "x",
+                (x, y),
+                "could not be projected to the working CRS",
+                "for a geographic CRS x is the longitude (-180 to 180) and y the latitude "
+                "(-90 to 90), in degrees",
+            )
+            ok = False
+        elevation = None
+        if _text(row.get("elevation")):
+            elevation = _number(row, "elevation", f_cores, line, log)
+            ok = ok and elevation is not None
         known[cid] = {
             "line": line,
             "ok": ok,
-            "row": row,
-            "elevation": None if elevation is None else float(elevation),
+            "x": float("nan") if x is None else x,
+            "y": float("nan") if y is None else y,
+            "easting": float(easting) if ok else float("nan"),
+            "northing": float(northing) if ok else float("nan"),
+            "elevation": elevation,
         }
 
     # -- intervals -------------------------------------------------------------------------
@@ -259,13 +277,11 @@ def build_cores(
         if cid not in known:
             orphans.setdefault((f_iv, cid), []).append(line)
             continue
-        top, base = row.get("top"), row.get("base")
-        ok = True
+        top = _number(row, "top", f_iv, line, log)
+        base = _number(row, "base", f_iv, line, log)
+        ok = top is not None and base is not None
         for col, value in (("top", top), ("base", base)):
-            if not _finite(value):
-                log.error(f_iv, line, col, value, "is not a finite number")
-                ok = False
-            elif value < 0:
+            if value is not None and value < 0:
                 log.error(
                     f_iv,
                     line,
@@ -364,8 +380,8 @@ def build_cores(
             orphans.setdefault((f_picks, cid), []).append(line)
             continue
         name = _text(row.get("surface"))
-        depth = row.get("depth")
-        ok = True
+        depth = _number(row, "depth", f_picks, line, log)
+        ok = depth is not None
         if not name:
             log.error(f_picks, line, "surface", row.get("surface"), "is empty")
             ok = False
@@ -379,10 +395,7 @@ def build_cores(
                 f"surfaces in the project file: {list(ages)}",
             )
             ok = False
-        if not _finite(depth):
-            log.error(f_picks, line, "depth", depth, "is not a finite number")
-            ok = False
-        elif depth < 0:
+        if depth is not None and depth < 0:
             log.error(
                 f_picks,
                 line,
@@ -478,17 +491,16 @@ def build_cores(
 
     out = []
     for cid, info in known.items():
-        row = info["row"]
         out.append(
             Core(
                 cid,
-                float(row["easting"]) if _finite(row.get("easting")) else float("nan"),
-                float(row["northing"]) if _finite(row.get("northing")) else float("nan"),
+                info["easting"],
+                info["northing"],
                 info["elevation"],
                 tuple(by_core[cid]),
                 tuple(core_picks[cid]),
-                _float_or_nan(row.get("x", row.get("easting"))),
-                _float_or_nan(row.get("y", row.get("northing"))),
+                info["x"],
+                info["y"],
                 info["line"],
             )
         )
@@ -524,5 +536,58 @@ def _finite(value) -> bool:
     )
 
 
-def _float_or_nan(value) -> float:
-    return float(value) if _finite(value) else float("nan")
+_NUMBER = re.compile(r"^[+-]?(?:\d+(?:\.\d*)?|\.\d+)(?:[eE][+-]?\d+)?$")
+
+
+def parse_number(value) -> float:
+    """A table cell as a finite number.
+
+    Accepts numbers and decimal text with a point (``"12"``, ``"-3.5"``, ``"1.2e3"``),
+    with surrounding whitespace. Rejects empty cells, other text, NaN and infinity.
+
+    Raises
+    ------
+    ValueError
+        With a message saying what is wrong (``"is empty"``, ``"is not a number"``, ...).
+
+    Examples
+    --------
+    >>> parse_number(" 12.5 "), parse_number("1e3"), parse_number(7)
+    (12.5, 1000.0, 7.0)
+    >>> parse_number("nan")
+    Traceback (most recent call last):
+    ...
+    ValueError: is not a finite number (NaN or infinity)
+    """
+    if isinstance(value, bool):
+        raise ValueError("is not a number")
+    if isinstance(value, (int, float, np.integer, np.floating)):
+        if not math.isfinite(value):
+            raise ValueError("is not a finite number (NaN or infinity)")
+        return float(value)
+    if value is None:
+        raise ValueError("is empty")
+    text = str(value).strip()
+    if not text:
+        raise ValueError("is empty")
+    if text.lower().lstrip("+-") in {"nan", "inf", "infinity"}:
+        raise ValueError("is not a finite number (NaN or infinity)")
+    if not _NUMBER.match(text):
+        if re.match(r"^[+-]?\d+,\d+$", text):
+            raise ValueError("is not a number: write a point as the decimal separator")
+        raise ValueError("is not a number")
+    number = float(text)
+    if not math.isfinite(number):
+        raise ValueError("is not a finite number (too large)")
+    return number
+
+
+def _number(row: dict, column: str, file, line, log: ProblemLog) -> float | None:
+    """Parse one cell; log a problem and return None when it is not a finite number."""
+    value = row.get(column)
+    try:
+        return parse_number(value)
+    except ValueError as exc:
+        shown = None if value is None or _isnan(value) else value
+        log.error(file, line, column, shown, str(exc))
+        return None
