@@ -1,0 +1,39 @@
+"""``paleomap demo``: build the bundled demo region."""
+
+from __future__ import annotations
+
+from pathlib import Path
+
+import click
+
+from .build import run_build
+
+__all__ = ["command", "demo_project_path"]
+
+
+def demo_project_path() -> Path:
+    """The bundled demo region's project file (in the source tree, beside the package)."""
+    package = Path(__file__).resolve().parents[1]
+    for here in (package.parent / "demo_region" / "project.toml",  # source tree
+                 package / "_demo_region" / "project.toml"):  # installed wheel
+        if here.exists():
+            return here
+    from ..errors import PaleomapError
+
+    raise PaleomapError(f"the demo region is not installed (no {here})")
+
+
+@click.command("demo")
+@click.option("--out", "-o", "out", default=Path("demo_build"), show_default=True,
+              type=click.Path(path_type=Path), help="Build folder to write.")
+@click.option("--keep", is_flag=True,
+              help="Refuse to replace an earlier demo build (by default it is replaced).")
+@click.pass_context
+def command(ctx: click.Context, out: Path, keep: bool) -> None:
+    """Build the bundled demo region (an invented shelf) into OUT.
+
+    \b
+    Example:
+      paleomap demo --out demo_build
+    """
+    run_build(demo_project_path(), out, overwrite=not keep, quiet=ctx.obj.get("quiet", False))

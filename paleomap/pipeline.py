@@ -1,0 +1,410 @@
+"""The build: every stage in order, from a validated project to the deliverables.
+
+``compute(project)`` runs the stages and returns a :class:`BuildResult` of plain
+values; ``write_build(result, out)`` writes them into a build folder atomically;
+``build(project, out)`` does both. Each stage is a plain function over plain data; only
+the writers touch files.
+
+Examples
+--------
+>>> from paleomap import load_project, build               # doctest: +SKIP
+>>> result = build(load_project("basin/project.toml"), "basin/build")  # doctest: +SKIP
+"""
+
+from __future__ import annotations
+
+import datetime as _dt
+import logging
+import time
+from dataclasses import dataclass, field
+from pathlib import Path
+
+import numpy as np
+import pandas as pd
+import shapely
+
+from ._version import __version__
+from .agemodel import build_age_models, sample_slices
+from .belts import belt_polygons, classify, honour_cores, node_field, walther_contacts
+from .errors import PaleomapWarning
+from .grid import Grid, make_grid
+from .migration import (
+    area_change,
+    classify_sense,
+    default_transects,
+    lsq_rate,
+    regional_dip_azimuth,
+    shift_statistics,
+    transect_position,
+)
+from .project import Project, Slice
+from .shoreline import distal_region, shoreline, shoreline_band
+
+__all__ = ["BuildResult", "SliceMap", "Transect", "build", "compute", "write_build"]
+
+log = logging.getLogger(__name__)
+
+
+@dataclass(eq=False)
+class SliceMap:
+    """The map of one time slice.
+
+    Grids have the grid's shape (rows north to south); ``probabilities`` is
+    (n_belts, rows, cols) float32. ``polygons[k]`` is belt ``k``'s geometry.
+    """
+
+    slice: Slice
+    core_ids: tuple[str, ...]
+    ranks: np.ndarray
+    thresholds: np.ndarray
+    latent: np.ndarray
+    latent_sd: np.ndarray
+    probabilities: np.ndarray
+    nodes: object
+    polygons: list
+    shoreline: object
+    band: object
+    distal: object
+    quality: dict = field(default_factory=dict)
+
+    @property
+    def distal_probability(self) -> np.ndarray:
+        """Probability of the distal side of the tracked boundary, per cell."""
+        return self._distal_probability
+
+    def set_boundary(self, b: int) -> None:
+        self._distal_probability = self.probabilities[b:].sum(axis=0)
+
+    def mapped_belt(self) -> np.ndarray:
+        """Belt rank of each cell from the mean latent (the class the polygons show)."""
+        return classify(self.latent, self.thresholds)
+
+
+@dataclass(frozen=True)
+class Transect:
+    """A migration transect, landward to basinward."""
+
+    transect: str
+    line: object
+    azimuth_deg: float
+    source: str  # "dip" (default) or "user"
+    lsq_rate_m_per_kyr: float = float("nan")
+
+
+@dataclass(eq=False)
+class BuildResult:
+    """Everything a build computed, ready for the writers."""
+
+    project: Project
+    grid: Grid
+    samples: pd.DataFrame
+    slice_maps: list[SliceMap]
+    transects: list[Transect]
+    positions: pd.DataFrame
+    shifts: pd.DataFrame
+    slice_pairs: pd.DataFrame
+    reading: object
+    run_info: dict
+    timings: dict
+    age_models: dict = field(default_factory=dict)
+
+
+class _Stopwatch:
+    def __init__(self):
+        self.times: dict[str, float] = {}
+
+    def stage(self, name):
+        sw = self
+
+        class _C:
+            def __enter__(self):
+                self.t = time.perf_counter()
+                log.info("%s ...", name)
+
+            def __exit__(self, *exc):
+                sw.times[name] = sw.times.get(name, 0.0) + time.perf_counter() - self.t
+
+        return _C()
+
+
+def compute(project: Project) -> BuildResult:
+    """Run every stage of a build on a validated project; write nothing.
+
+    Parameters
+    ----------
+    project : Project
+        From :func:`paleomap.load_project`.
+
+    Returns
+    -------
+    BuildResult
+    """
+    sw = _Stopwatch()
+    scheme = project.scheme
+    with sw.stage("age models"):
+        age_models = build_age_models(project)
+        samples = sample_slices(project, age_models=age_models)
+    with sw.stage("grid"):
+        e = np.array([c.easting for c in project.cores])
+        n = np.array([c.northing for c in project.cores])
+        grid = make_grid(e, n, cell_size=project.grid.cell_size, margin=project.grid.margin,
+                         area=project.area, crs=project.working_crs)
+    with sw.stage("field"):
+        fields = _map_fields(project, samples, grid)
+    b = scheme.tracked_boundary
+    maps: list[SliceMap] = []
+    with sw.stage("belts"):
+        for i, (sl, fr) in enumerate(fields):
+            log.info("belts: slice %s (%d of %d)", sl.name, i + 1, len(fields))
+            maps.append(_slice_map(project, grid, sl, fr, b))
+    with sw.stage("shorelines"):
+        transects, positions = _positions(project, grid, maps, b)
+        shifts, pairs, transects = _shifts(project, maps, transects, positions)
+    with sw.stage("core reading"):
+        reading = _read_cores(project, age_models, pairs)
+        if reading is not None and len(pairs):
+            pairs = _with_core_counts(pairs, reading)
+    run_info = _run_info(project, grid, maps)
+    return BuildResult(project, grid, samples, maps, transects, positions, shifts, pairs,
+                       reading, run_info, sw.times, age_models)
+
+
+# --------------------------------------------------------------------------- field
+
+
+def _map_fields(project: Project, samples: pd.DataFrame, grid: Grid):
+    """Ordinal fields of every slice, sharing kriging work between slices with the same
+    cores. Returns [(Slice, FieldResult)] in slice order (oldest first)."""
+    from .field import map_slices
+
+    by_slice = {}
+    for sl in project.slices:
+        rows = samples[samples["slice"] == sl.name]
+        by_slice[sl.name] = (tuple(rows["core_id"]), rows["rank"].to_numpy(int),
+                             rows["easting"].to_numpy(float), rows["northing"].to_numpy(float))
+    ce, cn = grid.cell_centres()
+    results = map_slices(by_slice, (ce, cn), project.scheme.n_belts, project.mapping,
+                         grid_shape=grid.shape)
+    return [(sl, results[sl.name]) for sl in project.slices if sl.name in results]
+
+
+def _slice_map(project: Project, grid: Grid, sl: Slice, fr, b: int) -> SliceMap:
+    shape = grid.shape
+    latent = np.asarray(fr.latent_mean, dtype=float).reshape(shape)
+    latent_sd = np.asarray(fr.latent_sd, dtype=float).reshape(shape)
+    probs = np.asarray(fr.probabilities, dtype=np.float32).reshape(*shape, -1)
+    probs = np.moveaxis(probs, -1, 0)
+    t = np.asarray(fr.thresholds, dtype=float)
+    nodes = node_field(latent, grid)
+    honour_cores(nodes, fr.easting, fr.northing, fr.ranks, t)
+    polygons = belt_polygons(None, grid, t, nodes=nodes)
+    line = shoreline(nodes, float(t[b - 1]), grid.area)
+    m = SliceMap(sl, tuple(fr.core_ids), np.asarray(fr.ranks), t, latent, latent_sd, probs,
+                 nodes, polygons, line, None, distal_region(polygons, b))
+    m.set_boundary(b)
+    m.band = shoreline_band(m.distal_probability, grid)
+    inside = [bool(shapely.contains_xy(polygons[r], e, n)) if not polygons[r].is_empty else False
+              for e, n, r in zip(fr.easting, fr.northing, fr.ranks, strict=True)]
+    touching = walther_contacts(polygons)
+    if touching:
+        import warnings
+
+        warnings.warn(f"slice {sl.name}: belts {touching} touch though they are not "
+                      "neighbours in the scheme", PaleomapWarning, stacklevel=2)
+    if line.is_empty:
+        import warnings
+
+        warnings.warn(
+            f"slice {sl.name!r}: the tracked boundary "
+            f"{project.scheme.boundary_name(b)!r} does not cross the mapped area (every core "
+            "records the same side of it); no shoreline is drawn for this slice",
+            PaleomapWarning, stacklevel=2)
+    m.quality = dict(
+        cores_used=len(fr.core_ids),
+        cores_in_own_belt=int(sum(inside)),
+        walther_ok=not touching,
+        has_boundary=not line.is_empty,
+        **fr.quality,
+    )
+    return m
+
+
+# ---------------------------------------------------------------------- migration
+
+
+def _positions(project: Project, grid: Grid, maps: list[SliceMap], b: int):
+    if project.transect_lines:
+        transects = []
+        for tid, line in project.transect_lines:
+            (x0, y0), (x1, y1) = line.coords[0], line.coords[-1]
+            az = float(np.degrees(np.arctan2(x1 - x0, y1 - y0)) % 360.0)
+            transects.append(Transect(str(tid), line, az, "user"))
+    else:
+        az = regional_dip_azimuth([m.latent for m in maps], grid) if maps else 90.0
+        lines = default_transects(grid.area, az, project.migration.transect_spacing_m)
+        transects = [Transect(tid, line, az, "dip") for tid, line in lines]
+    rows = []
+    step = grid.cell_size / 2
+    for m in maps:
+        t_b = float(m.thresholds[b - 1])
+        pnodes = node_field(m.distal_probability, grid)
+        for tr in transects:
+            pos = transect_position(tr.line, m.nodes.at, t_b, pnodes.at, step)
+            rows.append(dict(transect=tr.transect, slice=m.slice.name, age=m.slice.age,
+                             position_m=pos.position_m, position_low_m=pos.low_m,
+                             position_high_m=pos.high_m, crossings=pos.crossings))
+    return transects, pd.DataFrame(rows, columns=[
+        "transect", "slice", "age", "position_m", "position_low_m", "position_high_m",
+        "crossings"])
+
+
+def _ordered_pairs(maps: list[SliceMap]):
+    """Consecutive (older, younger) slice pairs, oldest first."""
+    by_age = sorted(maps, key=lambda m: -m.slice.age)
+    return list(zip(by_age[:-1], by_age[1:], strict=False))
+
+
+def _shifts(project: Project, maps, transects, positions):
+    from .migration import TransectPosition
+
+    kyr = project.kyr_per_age_unit
+    tol = project.migration.stillstand_m_per_kyr
+    sd = {s.name: s.age_sd for s in project.surfaces}
+    pos = {(r.transect, r.slice): r for r in positions.itertuples()}
+    lines = {t.transect: t.line for t in transects}
+    rows = []
+    pair_rows = []
+    for k, (old, young) in enumerate(_ordered_pairs(maps)):
+        for tr in transects:
+            po, py = pos[(tr.transect, old.slice.name)], pos[(tr.transect, young.slice.name)]
+            stats = shift_statistics(
+                TransectPosition(po.position_m, po.position_low_m, po.position_high_m,
+                                 po.crossings),
+                TransectPosition(py.position_m, py.position_low_m, py.position_high_m,
+                                 py.crossings),
+                old.slice.age * kyr, young.slice.age * kyr,
+                sd.get(old.slice.surface or "", 0.0) * kyr,
+                sd.get(young.slice.surface or "", 0.0) * kyr,
+                seed=k,
+            )
+            if np.isfinite(stats["shift_m"]):
+                line = lines[tr.transect]
+                geom = shapely.LineString([
+                    shapely.line_interpolate_point(line, po.position_m).coords[0],
+                    shapely.line_interpolate_point(line, py.position_m).coords[0]])
+            else:
+                geom = None
+            rows.append(dict(transect=tr.transect, older_slice=old.slice.name,
+                             younger_slice=young.slice.name, older_age=old.slice.age,
+                             younger_age=young.slice.age, **stats,
+                             sense=classify_sense([stats["rate_m_per_kyr"]], tol)[0],
+                             older_crossings=po.crossings, younger_crossings=py.crossings,
+                             geometry=geom))
+        area = area_change(old.distal, young.distal, old.shoreline.length,
+                           young.shoreline.length)
+        dt = (old.slice.age - young.slice.age) * kyr
+        rates = [r["rate_m_per_kyr"] for r in rows[-len(transects):]] if transects else []
+        rates = np.array([r for r in rates if np.isfinite(r)])
+        median = float(np.median(rates)) if rates.size else np.nan
+        pair_rows.append(dict(
+            older_slice=old.slice.name, younger_slice=young.slice.name,
+            older_age=old.slice.age, younger_age=young.slice.age, **area,
+            net_rate_m_per_kyr=area["net_shift_m"] / dt if dt > 0 else np.nan,
+            median_rate_m_per_kyr=median, transects_used=int(rates.size),
+            sense=classify_sense([median], tol)[0]))
+    shifts = pd.DataFrame(rows)
+    pairs = pd.DataFrame(pair_rows)
+    # least-squares rate per transect over every slice
+    out = []
+    for tr in transects:
+        p = positions[positions["transect"] == tr.transect]
+        rate = lsq_rate(p["age"].to_numpy() * kyr, p["position_m"].to_numpy())
+        out.append(Transect(tr.transect, tr.line, tr.azimuth_deg, tr.source, rate))
+    return shifts, pairs, out
+
+
+# ---------------------------------------------------------------------- core reading
+
+
+def _read_cores(project: Project, age_models, pairs: pd.DataFrame):
+    from .stacking import read_cores
+
+    return read_cores(project, age_models=age_models)
+
+
+def _with_core_counts(pairs: pd.DataFrame, reading) -> pd.DataFrame:
+    from .stacking import cross_check
+
+    mapped = {}
+    for r in pairs.itertuples():
+        mapped[(r.older_slice, r.younger_slice)] = r.sense or None
+    checked = cross_check(reading.region, mapped)
+    keep = [c for c in checked.columns if c not in ("older_age", "younger_age")]
+    merged = pairs.merge(checked[keep], how="left",
+                         left_on=["older_slice", "younger_slice"],
+                         right_on=["older_surface", "younger_surface"])
+    return merged.drop(columns=[c for c in ("older_surface", "younger_surface")
+                                if c in merged.columns])
+
+
+# ---------------------------------------------------------------------- provenance
+
+
+def _run_info(project: Project, grid: Grid, maps) -> dict:
+    return {
+        "paleomap_version": __version__,
+        "built_at": _dt.datetime.now(_dt.UTC).isoformat(timespec="seconds"),
+        "project_name": project.name,
+        "project_file": str(project.path.name),
+        "project_text": project.config_text,
+        "input_sha256": dict(project.checksums),
+        "crs": project.crs.to_string(),
+        "working_crs": project.working_crs.to_wkt(),
+        "age_unit": project.age_unit,
+        "depth_unit": project.depth_unit,
+        "scheme": project.scheme.name,
+        "tracked_boundary": project.scheme.boundary_name(project.scheme.tracked_boundary),
+        "grid": dict(cell_size_m=grid.cell_size, rows=grid.n_rows, cols=grid.n_cols,
+                     west=grid.west, north=grid.north),
+        "slices": [m.slice.name for m in maps],
+    }
+
+
+# ---------------------------------------------------------------------- writing
+
+
+def write_build(result: BuildResult, out: str | Path, *, overwrite: bool = False,
+                figures: bool = True, report: bool = True) -> Path:
+    """Write a computed build into ``out`` atomically.
+
+    The folder is written beside ``out`` and moved into place only when complete; an
+    existing build is replaced only with ``overwrite``.
+    """
+    from .io.atomic import atomic_build_dir
+    from .io.writers import write_deliverables
+
+    out = Path(out)
+    with atomic_build_dir(out, overwrite=overwrite) as tmp:
+        write_deliverables(result, tmp, figures=figures, report=report)
+    return out
+
+
+def build(project: Project, out: str | Path, *, overwrite: bool = False, figures: bool = True,
+          report: bool = True) -> BuildResult:
+    """Compute every map of ``project`` and write the build folder ``out``.
+
+    Refuses to replace an existing build unless ``overwrite`` (checked before any work).
+
+    Returns
+    -------
+    BuildResult
+    """
+    from .io.atomic import _check_replaceable, BUILD_MARKER
+
+    _check_replaceable(Path(out).absolute(), overwrite, BUILD_MARKER)
+    result = compute(project)
+    t = time.perf_counter()
+    write_build(result, out, overwrite=overwrite, figures=figures, report=report)
+    result.timings["writing"] = time.perf_counter() - t
+    return result
+
