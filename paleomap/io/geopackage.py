@@ -204,7 +204,8 @@ def write_layers(
                 tmp,
                 layer=name,
                 driver="GPKG",
-                geometry_type=geom_type,
+                # pyogrio calls the generic type "Unknown"; GDAL declares it GEOMETRY.
+                geometry_type="Unknown" if geom_type == "Geometry" else geom_type,
                 promote_to_multi=False,
                 layer_options={"IDENTIFIER": name},
             )
