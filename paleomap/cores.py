@@ -267,6 +267,7 @@ def build_cores(
     by_core: dict[str, list[Interval]] = {cid: [] for cid in known}
     bad_iv_cores: set[str] = set()
     orphans: dict[tuple[str, str], list[int | None]] = {}
+    unknown: dict[str, tuple[str, list[int | None]]] = {}
     known_ids = list(scheme.ids) if scheme is not None else []
     for row in _rows(intervals):
         cid = _text(row.get("core_id"))
@@ -309,14 +310,8 @@ def build_cores(
         elif scheme is not None:
             r = scheme.rank(facies)
             if r is None:
-                log.error(
-                    f_iv,
-                    line,
-                    "facies",
-                    facies,
-                    f"is not a facies of the {scheme.name!r} scheme",
-                    f"known ids: {known_ids} (or their aliases, any case)",
-                )
+                # One message per unknown name, so a typo repeated on many lines is one fix.
+                unknown.setdefault(facies.lower(), (facies, []))[1].append(line)
                 ok = False
             else:
                 rank = r
@@ -324,6 +319,16 @@ def build_cores(
             bad_iv_cores.add(cid)
             continue
         by_core[cid].append(Interval(float(top), float(base), rank, facies, line))
+
+    for facies, lines in unknown.values():
+        log.error(
+            f_iv,
+            lines[0],
+            "facies",
+            facies,
+            f"is not a facies of the {scheme.name!r} scheme{_on_lines(lines)}",
+            f"known ids: {known_ids} (or their aliases, any case)",
+        )
 
     for cid, ivs in by_core.items():
         ivs.sort(key=lambda iv: (iv.top, iv.base))
@@ -337,7 +342,7 @@ def build_cores(
                     iv.line,
                     "top",
                     iv.top,
-                    f"core {cid!r}: overlaps the interval {prev.top!r}-{prev.base!r} "
+                    f"core {cid!r}: overlaps the interval {prev.top:g}-{prev.base:g} "
                     f"on line {prev.line}",
                     "intervals of one core must not overlap",
                 )
@@ -444,13 +449,12 @@ def build_cores(
         core_picks[cid].append(Pick(name, depth, line))
 
     for (fname, cid), lines in orphans.items():
-        shown = ", ".join(str(n) for n in lines[:8]) + (", ..." if len(lines) > 8 else "")
         log.error(
             fname,
             lines[0],
             "core_id",
             cid,
-            f"is not in {f_cores} (lines {shown})",
+            f"is not in {f_cores}{_on_lines(lines)}",
             "add the core to the cores table or correct the id",
         )
 
@@ -505,6 +509,15 @@ def build_cores(
             )
         )
     return tuple(out)
+
+
+def _on_lines(lines: list[int | None]) -> str:
+    """`` (also on lines 6, 9)`` for a problem that repeats on several lines."""
+    rest = [str(n) for n in lines[1:] if n is not None]
+    if not rest:
+        return ""
+    shown = ", ".join(rest[:8]) + (", ..." if len(rest) > 8 else "")
+    return f" (also on line{'s' if len(rest) > 1 else ''} {shown})"
 
 
 def _rows(table) -> list[dict]:

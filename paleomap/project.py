@@ -262,6 +262,9 @@ class ProjectConfig:
     lines : dict
         TOML line of each input path key, e.g. ``{"inputs.cores": 6}``, for messages
         about missing files.
+    belts : tuple of Belt or None
+        The scheme's belts as read, also when the scheme breaks a rule (so that the
+        facies of the intervals can still be checked in the same pass).
     """
 
     file: str
@@ -279,6 +282,7 @@ class ProjectConfig:
     mapping: MappingSettings = field(default_factory=MappingSettings)
     migration: MigrationSettings = field(default_factory=MigrationSettings)
     lines: dict = field(default_factory=dict)
+    belts: tuple[Belt, ...] | None = None
 
 
 def parse_config(
@@ -607,7 +611,10 @@ class _ConfigReader:
             out["age_unit"] = self.text(time, ("time",), "age_unit", choices=tuple(AGE_UNITS))
 
         out["surfaces"] = self.read_surfaces(out.get("age_unit"))
+        self.belts = None
         out["scheme"] = self.read_scheme()
+        # The belts as read, even when the scheme breaks a rule: facies are still checked.
+        out["belts"] = self.belts
         out["slices"] = self.read_slices(out["surfaces"], out.get("age_unit"))
         out["grid"] = self.read_grid(lines)
         out["mapping"] = self.read_mapping()
@@ -774,6 +781,7 @@ class _ConfigReader:
                 belts[i] = replace(belts[i], color=color)
         if not ok:
             return None
+        self.belts = tuple(belts)
         problems = _scheme_problems(tuple(belts), track, "scheme")
         for p in problems:
             parts = tuple(p.column.split(".")) if p.column else path

@@ -36,6 +36,12 @@ class _Remove:
     def __repr__(self) -> str:
         return "REMOVE"
 
+    def __copy__(self):
+        return self
+
+    def __deepcopy__(self, memo):
+        return self
+
 
 REMOVE = _Remove()
 """Marks a TOML key or table to leave out of the written project."""
@@ -115,9 +121,7 @@ def _format_value(value) -> str:
     if isinstance(value, str):
         return '"' + value.replace("\\", "\\\\").replace('"', '\\"') + '"'
     if isinstance(value, dict):
-        inner = ", ".join(
-            f"{k} = {_format_value(v)}" for k, v in value.items() if v is not REMOVE
-        )
+        inner = ", ".join(f"{k} = {_format_value(v)}" for k, v in value.items() if v is not REMOVE)
         return "{ " + inner + " }" if inner else "{}"
     if isinstance(value, (list, tuple)):
         if value and all(isinstance(v, dict) for v in value):

@@ -110,7 +110,7 @@ def load_project(path: str | os.PathLike) -> Project:
                 key,
                 value,
                 "names a file that does not exist",
-                f"looked for {target}; paths are relative to the project file",
+                f"looked for {os.path.abspath(target)}; paths are relative to the project file",
             )
             return None
         return target
@@ -159,7 +159,7 @@ def load_project(path: str | os.PathLike) -> Project:
             cores_table,
             tables["intervals"],
             tables["picks"],
-            cfg.scheme,
+            cfg.scheme if cfg.scheme is not None else _belt_names(cfg),
             cfg.surfaces,
             files=files,
             log=log,
@@ -631,6 +631,22 @@ def _read_transects(path, shown, project_crs, working, log, checksums, root) -> 
             geom = geom.geoms[0]
         out.append((tid, geom))
     return tuple(out)
+
+
+class _BeltNames:
+    """Facies lookup over the belts of a scheme that broke a rule (see Scheme.rank)."""
+
+    def __init__(self, belts):
+        self.name = "custom"
+        self.ids = tuple(b.id for b in belts)
+        self._lookup = {n: r for r, b in enumerate(belts) for n in b.names()}
+
+    def rank(self, facies: str) -> int | None:
+        return self._lookup.get(str(facies).strip().lower())
+
+
+def _belt_names(cfg: ProjectConfig):
+    return _BeltNames(cfg.belts) if cfg.belts else None
 
 
 def _check_records(project: Project, cfg: ProjectConfig, log: ProblemLog) -> None:
