@@ -25,6 +25,7 @@ from paleomap.io.atomic import (
     atomic_output_path,
     atomic_write_bytes,
     atomic_write_text,
+    check_build_target,
     recover_leftovers,
 )
 from paleomap.io.geopackage import write_layers
@@ -277,6 +278,18 @@ def test_restored_build_is_still_protected(tmp_path):
         with atomic_build_dir(target, overwrite=False):
             pass
     _assert_old_build_intact(target)
+
+
+def test_check_build_target_restores_then_refuses(tmp_path):
+    target = tmp_path / "build"
+    assert check_build_target(target, overwrite=False) == target
+    assert list(tmp_path.iterdir()) == []  # a check writes nothing
+    _make_old_build(target)
+    os.rename(target, tmp_path / f".build.old-{_dead_pid()}")
+    with pytest.raises(OutputExistsError, match="already exists"):
+        check_build_target(target, overwrite=False)
+    _assert_old_build_intact(target)
+    assert check_build_target(target, overwrite=True) == target
 
 
 def test_leftovers_after_swap_are_removed(tmp_path):

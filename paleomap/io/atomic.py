@@ -65,6 +65,7 @@ __all__ = [
     "atomic_output_path",
     "atomic_write_bytes",
     "atomic_write_text",
+    "check_build_target",
     "recover_leftovers",
 ]
 
@@ -298,6 +299,48 @@ def recover_leftovers(target: str | os.PathLike) -> None:
         shutil.rmtree(partial, ignore_errors=True)
 
 
+def check_build_target(
+    target: str | os.PathLike, *, overwrite: bool, marker: str | None = BUILD_MARKER
+) -> Path:
+    """Check, before any work, that a build may be written to ``target``.
+
+    Tidies leftovers of interrupted runs first (:func:`recover_leftovers`), so a
+    build restored from an interrupted swap is protected like any other. Applies
+    the same rules as :func:`atomic_build_dir`, which checks again on entry and
+    just before moving the new build into place; call this before a long
+    computation so that a refusal comes before the work.
+
+    Parameters
+    ----------
+    target : path-like
+        The build folder.
+    overwrite : bool
+        Whether an existing build at ``target`` may be replaced.
+    marker : str or None
+        See :func:`atomic_build_dir`.
+
+    Returns
+    -------
+    pathlib.Path
+        ``target`` as an absolute path.
+
+    Raises
+    ------
+    OutputExistsError
+        As :func:`atomic_build_dir`.
+
+    Examples
+    --------
+    >>> import tempfile, pathlib
+    >>> check_build_target(pathlib.Path(tempfile.mkdtemp()) / "new", overwrite=False).name
+    'new'
+    """
+    target = Path(target).absolute()
+    recover_leftovers(target)
+    _check_replaceable(target, overwrite, marker)
+    return target
+
+
 @contextlib.contextmanager
 def atomic_build_dir(
     target: str | os.PathLike, *, overwrite: bool, marker: str | None = BUILD_MARKER
@@ -345,11 +388,9 @@ def atomic_build_dir(
     >>> (out / "a.txt").read_text()
     'second'
     """
-    target = Path(target).absolute()
+    target = check_build_target(target, overwrite=overwrite, marker=marker)
     parent = target.parent
     parent.mkdir(parents=True, exist_ok=True)
-    recover_leftovers(target)
-    _check_replaceable(target, overwrite, marker)
 
     partial = parent / f".{target.name}.partial-{os.getpid()}"
     if partial.exists():

@@ -228,7 +228,7 @@ def write_float_raster(
     if math.isinf(nodata):
         raise ValueError(f"nodata must be NaN or finite, got {nodata!r}")
     if not math.isnan(nodata):
-        if np.float32(nodata) != nodata:
+        if float(np.float32(nodata)) != nodata:
             raise ValueError(f"nodata {nodata!r} is not exactly representable as float32")
         if (data == nodata).any():
             raise ValueError(f"float raster data hold the nodata value {nodata!r}")
