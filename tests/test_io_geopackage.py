@@ -7,6 +7,7 @@ foreign_key_check), gpkg_spatial_ref_sys, gpkg_contents and gpkg_geometry_column
 
 from __future__ import annotations
 
+import datetime
 import json
 import signal
 import sqlite3
@@ -151,7 +152,12 @@ def written(tmp_path_factory):
         out,
         _layers(),
         styles=styles,
-        metadata={"paleomap_version": "0.1.0", "inputs": {"cores.csv": "ab12"}, "n": np.int64(3)},
+        metadata={
+            "paleomap_version": "0.1.0",
+            "inputs": {"cores.csv": "ab12"},
+            "n": np.int64(3),
+            "started_utc": datetime.datetime(2024, 5, 1, 12, 0, tzinfo=datetime.UTC),
+        },
         geometry_types={"shoreline_bands": "MultiPolygon"},
     )
     return out, styles
@@ -279,6 +285,7 @@ def test_dataset_metadata(db, written):
         "paleomap_version": "0.1.0",
         "inputs": {"cores.csv": "ab12"},
         "n": 3,
+        "started_utc": "2024-05-01T12:00:00+00:00",
     }
 
 

@@ -41,6 +41,7 @@ Examples
 
 from __future__ import annotations
 
+import datetime
 import json
 import logging
 import math
@@ -154,7 +155,7 @@ def write_layers(
         Dataset metadata (e.g. version, run time), stored as one JSON object in
         ``gpkg_metadata`` (md_scope ``'dataset'``, mime_type ``application/json``,
         referenced with reference_scope ``'geopackage'``). Values must be
-        JSON-serialisable (numpy scalars and arrays are converted).
+        JSON-serialisable (numpy scalars and arrays, paths and dates are converted).
     geometry_types : mapping of str to str, optional
         Geometry type to declare per layer ("Point", "MultiPolygon", ...), needed for
         an empty layer; for a non-empty one it must agree with the data, and a
@@ -404,6 +405,8 @@ def _json_metadata_default(value):
         return value.tolist()
     if isinstance(value, Path):
         return str(value)
+    if isinstance(value, datetime.date | datetime.datetime | pd.Timestamp):
+        return value.isoformat()
     raise TypeError(f"{type(value).__name__} value {value!r} is not JSON-serialisable")
 
 
