@@ -399,9 +399,9 @@ def build(project: Project, out: str | Path, *, overwrite: bool = False, figures
     -------
     BuildResult
     """
-    from .io.atomic import _check_replaceable, BUILD_MARKER
+    from .io.atomic import check_build_target
 
-    _check_replaceable(Path(out).absolute(), overwrite, BUILD_MARKER)
+    check_build_target(out, overwrite=overwrite)
     result = compute(project)
     t = time.perf_counter()
     write_build(result, out, overwrite=overwrite, figures=figures, report=report)

@@ -2,3 +2,5 @@
 
 matplotlib is imported inside the figure modules only, so ``import paleomap`` stays light.
 """
+
+__all__: list[str] = []

@@ -5,3 +5,5 @@ Writers put every deliverable on disk atomically (:mod:`.atomic`): the layers in
 OGC GeoPackage (:mod:`.geopackage`), rasters as GeoTIFF (:mod:`.geotiff`), and layer
 styles as OGC SLD 1.1.0 documents (:mod:`.styles`).
 """
+
+__all__: list[str] = []
