@@ -481,3 +481,77 @@ def test_turnarounds_alternate_and_have_min_change_both_sides(pairs, h):
     assert all(t.depth_top <= t.depth <= t.depth_base for t in turns)
     p = _from_pairs(pairs)
     assert all(p.tops[0] < t.depth < p.bases[-1] for t in turns)
+
+
+# --- synthetic basin with known truth ------------------------------------------------
+
+
+@pytest.fixture(scope="module")
+def basin_reading(tmp_path_factory):
+    from paleomap.io.readers import load_project
+    from paleomap.synthetic import make_basin, write_project
+
+    basin = make_basin(n_cores=30, seed=3, truth_cell_m=1000.0)
+    path = write_project(basin, tmp_path_factory.mktemp("basin"))
+    project = load_project(path)
+    return basin, project, read_cores(project)
+
+
+def _extremes(history, sign):
+    """Ages of the interior maxima (sign=1) or minima (sign=-1) of a sea-level history."""
+    a, lv = np.asarray(history.ages), sign * np.asarray(history.levels)
+    return [float(a[i]) for i in range(1, len(a) - 1) if lv[i] > lv[i - 1] and lv[i] > lv[i + 1]]
+
+
+@pytest.mark.parametrize("kind, sign", [("MFS", 1), ("MRS", -1)], ids=["highstand", "lowstand"])
+def test_synthetic_turnarounds_bracket_true_sea_level_extremes(basin_reading, kind, sign):
+    # Catuneanu et al. 2009: the MFS caps the deepening of a transgression; in the forward
+    # model sea-level rise outpaces accumulation, so the deepest water (the most distal
+    # belt) is laid down at the highstand, the shallowest at the lowstand. A suggested
+    # turnaround spans the extreme belt; the true extreme's deposit (the model's time step
+    # at that age) must lie within that span widened by one sampling step.
+    basin, _, reading = basin_reading
+    ages = _extremes(basin.sea_level, sign)
+    turns = reading.turnarounds[reading.turnarounds["kind"] == kind]
+    assert len(turns) >= 4
+    for t in turns.itertuples(index=False):
+        rec = basin.core_record(t.core_id)
+        hits = []
+        for age in ages:
+            step = rec[(rec["older_age"] >= age) & (rec["younger_age"] <= age)]
+            if len(step):
+                s = step.iloc[0]
+                dz = s["base"] - s["top"]
+                hits.append(t.depth_top - dz <= s["top"] and s["base"] <= t.depth_base + dz)
+        assert any(hits), (t.core_id, t.depth, t.depth_top, t.depth_base)
+
+
+def test_synthetic_trends_never_oppose_the_true_shoreline_shift(basin_reading):
+    # Walther 1894: landward shift of the belts (transgression) stacks more distal facies
+    # upward, seaward shift more proximal; so no core should deepen in a regressive pair
+    # or shallow in a transgressive one.
+    basin, _, reading = basin_reading
+    shifts = basin.true_shifts[basin.true_shifts["transect"] == "mean"]
+    mapped = {(r.older_slice, r.younger_slice): r.sense for r in shifts.itertuples(index=False)}
+    check = cross_check(reading.region, mapped)
+    assert set(check["agreement"]) == {"agree"}
+    region = reading.region.set_index("interval")
+    for (older, younger), sense in mapped.items():
+        row = region.loc[f"{older}-{younger}"]
+        assert row["n_cores"] == len(basin.cores)
+        opposed = row["n_deepening"] if sense == "regression" else row["n_shallowing"]
+        assert opposed == 0, (older, younger, sense)
+    assert (region["n_deepening"] + region["n_shallowing"]).sum() > 50
+
+
+def test_check_command_prints_the_core_reading(basin_reading):
+    from click.testing import CliRunner
+
+    from paleomap.cli import main
+
+    _, project, reading = basin_reading
+    out = CliRunner().invoke(main, ["check", str(project.path)])
+    assert out.exit_code == 0, out.output
+    for line in summary_lines(reading, project.scheme):
+        assert line in out.output
+    assert "Stacking per interval" in out.output

@@ -437,7 +437,7 @@ def read_cores(
         age_unit=project.age_unit,
         settings=st,
     )
-    _log.info(
+    _log.debug(
         "read %d cores: %d contacts (%d possible breaks), %d suggested turnarounds",
         len(project.cores),
         len(contact_df),
