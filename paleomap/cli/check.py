@@ -12,6 +12,8 @@ from ..agemodel import build_age_models, sample_slices
 from ..errors import PaleomapWarning
 from ..io.readers import load_project
 from ..project import Project
+from ..stacking import read_cores
+from ..stacking import summary_lines as reading_lines
 
 __all__ = ["command", "summary_lines"]
 
@@ -117,6 +119,6 @@ def command(project: Path) -> None:
     for w in caught:
         if not issubclass(w.category, PaleomapWarning):
             warnings.warn_explicit(w.message, w.category, w.filename, w.lineno)
-    for line in summary_lines(loaded):
+    for line in summary_lines(loaded) + reading_lines(read_cores(loaded), loaded.scheme):
         click.echo(line)
     click.echo("The project is valid.")
