@@ -861,7 +861,7 @@ class _ConfigReader:
                     'write at = "surfaces" or a list of ages, e.g. at = [120, 135.5]',
                 )
                 return None
-            items = [Slice(s.name, s.age, s.name) for s in surfaces]
+            items = [(None, Slice(s.name, s.age, s.name)) for s in surfaces]
         elif isinstance(at, list) and at:
             items = []
             for i, value in enumerate(at):
@@ -876,7 +876,7 @@ class _ConfigReader:
                             f"in {unit or 'the age unit'}",
                         )
                         continue
-                    items.append(Slice(s.name, s.age, s.name))
+                    items.append((i, Slice(s.name, s.age, s.name)))
                 elif isinstance(value, (int, float)) and not isinstance(value, bool):
                     if not math.isfinite(value) or value <= 0:
                         self.err(
@@ -889,25 +889,17 @@ class _ConfigReader:
                     # A free age that is a surface's age is that surface's slice.
                     same = [s for s in surfaces if s.age == float(value)]
                     if same:
-                        items.append(Slice(same[0].name, same[0].age, same[0].name))
+                        items.append((i, Slice(same[0].name, same[0].age, same[0].name)))
                     else:
-                        items.append(Slice(age_name(value, unit), float(value), None))
+                        items.append((i, Slice(age_name(value, unit), float(value), None)))
                 else:
                     self.err((*path, i), value, "must be an age or a surface name")
         else:
             self.err(path, at, 'must be "surfaces" or a non-empty list of ages')
             return None
         seen: dict[str, Slice] = {}
-        for sl in items:
+        for i, sl in items:
             if sl.name in seen:
-                i = (
-                    next(
-                        (j for j, v in enumerate(at) if v == sl.name or v == sl.age),
-                        None,
-                    )
-                    if isinstance(at, list)
-                    else None
-                )
                 self.err(
                     path if i is None else (*path, i),
                     sl.name,

@@ -27,10 +27,12 @@ from __future__ import annotations
 import re
 from dataclasses import dataclass, field
 
+import numpy as np
+
 from .errors import InputError, Problem
 from .figures.palette import belt_colors
 
-__all__ = ["BUILTIN_SCHEMES", "Belt", "Scheme", "builtin_scheme", "custom_scheme"]
+__all__ = ["BUILTIN_SCHEMES", "Belt", "Scheme", "builtin_scheme", "custom_scheme", "phi"]
 
 _HEX = re.compile(r"^#[0-9a-fA-F]{6}$")
 
@@ -232,16 +234,41 @@ def _siliciclastic() -> Scheme:
     # clay < 1/256 mm. Non-marine: gravel and coarse sand (fluvial, alluvial); marine from
     # the beach and shoreface sands basinward.
     belts = [
-        Belt("gravel", False, ("conglomerate", "granule", "pebble", "cobble", "boulder"),
-             label="gravel", grain_size_mm=(2.0, 4096.0)),
-        Belt("coarse_sand", False, ("very_coarse_sand", "coarse sand", "fluvial sand"),
-             label="coarse sand", grain_size_mm=(0.5, 2.0)),
-        Belt("fine_sand", True, ("fine sand", "medium_sand", "very_fine_sand", "shoreface"),
-             label="fine sand (beach, shoreface)", grain_size_mm=(0.0625, 0.5)),
-        Belt("silt", True, ("siltstone", "offshore transition"),
-             label="silt", grain_size_mm=(1 / 256, 0.0625)),
-        Belt("clay", True, ("mud", "mudstone", "shale", "claystone", "offshore"),
-             label="clay", grain_size_mm=(0.0, 1 / 256)),
+        Belt(
+            "gravel",
+            False,
+            ("conglomerate", "granule", "pebble", "cobble", "boulder"),
+            label="gravel",
+            grain_size_mm=(2.0, 4096.0),
+        ),
+        Belt(
+            "coarse_sand",
+            False,
+            ("very_coarse_sand", "coarse sand", "fluvial sand"),
+            label="coarse sand",
+            grain_size_mm=(0.5, 2.0),
+        ),
+        Belt(
+            "fine_sand",
+            True,
+            ("fine sand", "medium_sand", "very_fine_sand", "shoreface"),
+            label="fine sand (beach, shoreface)",
+            grain_size_mm=(0.0625, 0.5),
+        ),
+        Belt(
+            "silt",
+            True,
+            ("siltstone", "offshore transition"),
+            label="silt",
+            grain_size_mm=(1 / 256, 0.0625),
+        ),
+        Belt(
+            "clay",
+            True,
+            ("mud", "mudstone", "shale", "claystone", "offshore"),
+            label="clay",
+            grain_size_mm=(0.0, 1 / 256),
+        ),
     ]
     return Scheme("siliciclastic", _with_colors(belts), None, "siliciclastic")
 
@@ -250,13 +277,28 @@ def _carbonate_ramp() -> Scheme:
     # Dunham (1962): from grain-supported without mud to mud-supported. All marine on a
     # ramp; the tracked boundary is the edge of the grainstone shoal belt.
     belts = [
-        Belt("grainstone", True, ("oolite", "shoal"), label="grainstone",
-             texture="grain-supported, no mud"),
+        Belt(
+            "grainstone",
+            True,
+            ("oolite", "shoal"),
+            label="grainstone",
+            texture="grain-supported, no mud",
+        ),
         Belt("packstone", True, (), label="packstone", texture="grain-supported, with mud"),
-        Belt("wackestone", True, (), label="wackestone",
-             texture="mud-supported, more than 10 % grains"),
-        Belt("mudstone", True, ("lime_mudstone", "micrite"), label="mudstone",
-             texture="mud-supported, less than 10 % grains"),
+        Belt(
+            "wackestone",
+            True,
+            (),
+            label="wackestone",
+            texture="mud-supported, more than 10 % grains",
+        ),
+        Belt(
+            "mudstone",
+            True,
+            ("lime_mudstone", "micrite"),
+            label="mudstone",
+            texture="mud-supported, less than 10 % grains",
+        ),
     ]
     return Scheme("carbonate_ramp", _with_colors(belts), ("grainstone", "packstone"), "carbonate")
 
@@ -282,11 +324,43 @@ def builtin_scheme(name: str) -> Scheme:
     if name == "carbonate_ramp":
         return _carbonate_ramp()
     raise InputError(
-        [Problem(None, None, "scheme.builtin", name, "is not a built-in scheme",
-                 f"choose one of {list(BUILTIN_SCHEMES)}")]
+        [
+            Problem(
+                None,
+                None,
+                "scheme.builtin",
+                name,
+                "is not a built-in scheme",
+                f"choose one of {list(BUILTIN_SCHEMES)}",
+            )
+        ]
     )
 
 
 def custom_scheme(name: str, belts: list[Belt], track: tuple[str, str] | None) -> Scheme:
     """A user's own scheme; belts without a colour get the default palette."""
     return Scheme(name, _with_colors(belts), track, "custom")
+
+
+def phi(d_mm):
+    """Krumbein (1934) phi grain size of a diameter in millimetres: phi = -log2(d).
+
+    Parameters
+    ----------
+    d_mm : float or array_like
+        Grain diameter in mm, positive.
+
+    Returns
+    -------
+    float or numpy.ndarray
+
+    Examples
+    --------
+    >>> phi(2.0), phi(0.25), phi(1 / 256)
+    (-1.0, 2.0, 8.0)
+    """
+    d = np.asarray(d_mm, dtype=float)
+    if np.any(d <= 0):
+        raise ValueError("a grain diameter must be positive")
+    out = -np.log2(d)
+    return float(out) if out.ndim == 0 else out
