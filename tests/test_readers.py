@@ -322,3 +322,29 @@ def test_read_csv_table_raises_without_a_log(tmp_path):
     (tmp_path / "t.csv").write_text("a;b\n1;2\n")
     with pytest.raises(InputError, match="another separator"):
         read_csv_table(tmp_path / "t.csv", ("a", "b"))
+
+
+def _documented_example() -> dict[str, str]:
+    """The example project of docs/inputs.md: file name -> content of its code block."""
+    import re
+
+    text = (Path(__file__).parents[1] / "docs" / "inputs.md").read_text(encoding="utf-8")
+    blocks = re.findall(r"^`([\w.]+)`:\n\n```\w*\n(.*?)^```", text, flags=re.M | re.S)
+    return dict(blocks)
+
+
+def test_the_documented_example_project_checks_as_documented(tmp_path):
+    files = _documented_example()
+    assert set(files) == {"project.toml", "cores.csv", "intervals.csv", "picks.csv"}
+    for name, content in files.items():
+        (tmp_path / name).write_text(content, encoding="utf-8")
+    with pytest.warns(PaleomapWarning, match=r"'LB-02' has 1 gap.*11\.5-12"):
+        project = load_project(tmp_path / "project.toml")
+    assert project.name == "Lagoon Bay"
+    assert len(project.cores) == 4
+    assert sum(len(c.intervals) for c in project.cores) == 10
+    assert sum(len(c.picks) for c in project.cores) == 10
+    assert len(project.surfaces) == 3 and len(project.slices) == 3
+    assert len(project.warnings) == 1
+    assert project.scheme.belts[4].color == "#2b4b7a"
+    assert [s.erosional for s in project.surfaces] == [False, True, False]
