@@ -9,6 +9,7 @@ user's tables (and validating them) is :func:`build_cores`.
 
 from __future__ import annotations
 
+import difflib
 import math
 import re
 from collections.abc import Mapping, Sequence
@@ -397,7 +398,7 @@ def build_cores(
                 "surface",
                 name,
                 "is not a surface of the project",
-                f"surfaces in the project file: {list(ages)}",
+                _did_you_mean(name, list(ages)) + f"surfaces in the project file: {list(ages)}",
             )
             ok = False
         if depth is not None and depth < 0:
@@ -509,6 +510,12 @@ def build_cores(
             )
         )
     return tuple(out)
+
+
+def _did_you_mean(name: str, known: list[str]) -> str:
+    folded = {k.lower(): k for k in known}
+    close = difflib.get_close_matches(name.lower(), list(folded), n=1)
+    return f"did you mean {folded[close[0]]!r}? " if close else ""
 
 
 def _on_lines(lines: list[int | None]) -> str:

@@ -622,6 +622,9 @@ class _ConfigReader:
         return ProjectConfig(self.file, lines=lines, **out)
 
     def read_crs(self, project: dict) -> pyproj.CRS | None:
+        value = project.get("crs")
+        if isinstance(value, int) and not isinstance(value, bool) and value > 0:
+            project = {**project, "crs": f"EPSG:{value}"}  # a bare EPSG code
         text = self.text(project, ("project",), "crs")
         if text is None:
             if "crs" not in project:

@@ -206,3 +206,10 @@ def test_pick_value_types():
     p = Pick("s1", 2.0, 5)
     assert (p.surface, p.depth, p.line) == ("s1", 2.0, 5)
     assert Interval(1.0, 3.5, 2).thickness == 2.5
+
+
+def test_unknown_surface_suggests_a_close_name():
+    cores, intervals, picks = _tables(picks=[("A", "S1", 2)])
+    log = ProblemLog()
+    build_cores(cores, intervals, picks, SCHEME, SURFACES, log=log)
+    assert "did you mean 's1'?" in log.errors[0].hint

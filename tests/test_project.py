@@ -259,3 +259,8 @@ def test_compound_crs_uses_its_horizontal_part():
     crs = pyproj.CRS("EPSG:5555")  # ETRS89 / UTM 32N + DHHN92 height
     assert working_crs_for(crs).is_projected
     assert not working_crs_for(crs).is_compound
+
+
+def test_crs_as_a_bare_epsg_number():
+    text = _config().replace('crs = "EPSG:32631"', "crs = 32631")
+    assert parse_config(text).crs == pyproj.CRS("EPSG:32631")
