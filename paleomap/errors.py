@@ -90,7 +90,7 @@ class Problem:
         if self.value is not _MISSING and self.value is not None:
             text += f" (got {self.value!r})"
         if self.hint:
-            text += f". {self.hint}"
+            text += f". {self.hint[:1].upper()}{self.hint[1:]}"
         return text
 
 
