@@ -20,6 +20,9 @@ Choices, written down once:
   variograms of those values are fitted first; after a short Gibbs pass the
   variograms of the samples' residuals are fitted again. Any of ``model``,
   ``range_m``, ``anisotropy``, ``azimuth_deg`` and ``nugget`` can be fixed.
+* **Models.** Without an override the model is chosen among exponential,
+  spherical and matern32 (the gaussian model only on request: it makes the core
+  covariance numerically singular at ranges of a few core spacings).
 * **Nugget.** Fixed at 0 unless the caller asks for one: the latent is a
   continuous field, and with a zero nugget kriging is an exact interpolator, so
   the mean latent at a core is the mean of its samples, which lies inside the
@@ -104,6 +107,7 @@ logger = logging.getLogger(__name__)
 
 _OUTPUTS = ("latent_mean", "latent_sd", "probabilities", "most_likely", "belt_of_mean")
 _COVARIANCE_KEYS = ("model", "range_m", "anisotropy", "azimuth_deg", "nugget")
+_AUTO_MODELS = ("exponential", "spherical", "matern32")
 
 
 @dataclass(frozen=True)
@@ -405,15 +409,23 @@ def _fit_covariance(e, n, data, overrides, n_lags, range_bounds):
     """Fit the shared covariance to per-slice latent values (data: [(idx, y)])."""
     overrides = dict(overrides or {})
     overrides.setdefault("nugget", 0.0)
+    # The gaussian model is left out of the automatic choice: fitted with ranges of
+    # several core spacings it makes the core covariance numerically singular and
+    # implies an unrealistically smooth latent. It remains available as an override.
+    overrides.setdefault("model", _AUTO_MODELS)
     azimuth = overrides.pop("azimuth_deg", None)
     if azimuth is None:
         azimuth = _pooled_strike(e, n, data)
     edges = lag_edges(e, n, n_lags)
     ev = _residual_variograms(e, n, data, float(azimuth), edges)
+    if not all(np.all(np.isfinite(y)) for _, y in data):
+        raise ValueError("latent values are not finite: the covariance is numerically singular")
     if not np.any(np.nan_to_num(ev.gamma) > 1e-12):
         logger.info("latent values show no spatial variation; using the default covariance")
         cov = _default_covariance(e, n).replace(azimuth_deg=float(azimuth))
-        fixed = {k: v for k, v in overrides.items() if k in ("model", "range_m", "anisotropy")}
+        fixed = {k: v for k, v in overrides.items() if k in ("range_m", "anisotropy")}
+        if isinstance(overrides["model"], str):
+            fixed["model"] = overrides["model"]
         return cov.replace(**fixed) if fixed else cov, None
     fit = fit_covariance(ev, overrides, total_variance=1.0, range_bounds_m=range_bounds)
     return fit.covariance, fit
