@@ -17,7 +17,16 @@ Examples
 
 from __future__ import annotations
 
-__all__ = ["NO_RECORD_COLOR", "SHORELINE_COLOR", "belt_colors", "hex_to_rgb"]
+__all__ = [
+    "AGE_COLORMAP",
+    "EDGE_COLOR",
+    "FLAG_COLOR",
+    "MUTED_COLOR",
+    "NO_RECORD_COLOR",
+    "SHORELINE_COLOR",
+    "belt_colors",
+    "hex_to_rgb",
+]
 
 # Warm ramp, dark to light: used for non-marine belts, most proximal first.
 _LAND = ("#4a2c17", "#6b4423", "#8f6234", "#b98a4b", "#d9b56e")
@@ -29,6 +38,22 @@ NO_RECORD_COLOR = "#d9d9d9"
 
 SHORELINE_COLOR = "#c0392b"
 """Brick red for the tracked boundary (the shoreline by default)."""
+
+EDGE_COLOR = "#222222"
+"""Near-black for outlines: the mapped area's edge, core markers, core columns."""
+
+MUTED_COLOR = "#6e6e6e"
+"""Mid grey for transects, grid lines and other context drawn behind the data."""
+
+FLAG_COLOR = "#cc79a7"
+"""Reddish purple (Okabe & Ito 2008) for flagged contacts (possible breaks); it stands
+apart from every belt colour and from the shoreline red for common colour-vision
+deficiencies."""
+
+AGE_COLORMAP = "viridis_r"
+"""Sequential colormap for ages: matplotlib's ``viridis`` (perceptually uniform, readable
+with common colour-vision deficiencies and in greyscale; van der Walt & Smith 2015),
+reversed so that larger ages (older) are darker and younger ones lighter."""
 
 
 def _spread(ramp: tuple[str, ...], n: int) -> list[str]:
