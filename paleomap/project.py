@@ -344,6 +344,12 @@ def parse_config(
         if m:
             message = message[: m.start()]
         text_lines = text.splitlines()
+        end = re.search(r"\s*\(at end of document\)\s*$", message)
+        if line is None and end:
+            # Something opened (a quote, a bracket) is never closed: the problem shows
+            # at the end of the file.
+            message = message[: end.start()] + " at the end of the file"
+            line = _last_line(text_lines)
         bad = text_lines[line - 1].strip() if line and line <= len(text_lines) else None
         log.error(
             file,
@@ -460,6 +466,14 @@ def _crs_problem(crs: pyproj.CRS) -> tuple[str, str] | None:
             "or in a geographic CRS (it is then projected locally)",
         )
     return None
+
+
+def _last_line(lines: list[str]) -> int:
+    """1-based number of the last line that is not blank (1 for a blank file)."""
+    for i in range(len(lines), 0, -1):
+        if lines[i - 1].strip():
+            return i
+    return 1
 
 
 def _key(path: tuple) -> str:
@@ -583,13 +597,16 @@ class _ConfigReader:
         for name in _REQUIRED_TABLES:
             if name not in self.data:
                 what = "[[surfaces]]" if name == "surfaces" else f"[{name}]"
+                # An absent table has no line of its own: point at the end of the file,
+                # where it can be added.
                 self.log.error(
                     self.file,
-                    None,
+                    _last_line(self.locate.lines),
                     name,
                     None,
                     f"the table {what} is missing",
-                    "see docs/inputs.md for a complete example",
+                    "add it, e.g. at the end of the file; see docs/inputs.md for a complete "
+                    "example",
                 )
 
         out: dict = {}

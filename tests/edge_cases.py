@@ -82,7 +82,7 @@ INVALID = [
         "facies",
         1,
     ),
-    Broken("empty-file", {"intervals": ""}, "intervals.csv", "is empty"),
+    Broken("empty-file", {"intervals": ""}, "intervals.csv", "is empty", line=1),
     Broken(
         "header-only",
         {"picks": "core_id,surface,depth\n"},
@@ -416,6 +416,7 @@ INVALID = [
         "the table [grid] is missing",
         None,
         "grid",
+        toml_line='at = "surfaces"',  # [grid] is gone: the last line of the file
     ),
     Broken(
         "cell-size-zero",

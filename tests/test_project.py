@@ -94,12 +94,12 @@ def test_mapping_and_migration_settings_are_read():
 @pytest.mark.parametrize(
     ("key", "value", "message"),
     [
-        ("nugget", 1.0, "allowed: \\[0, 1\\)"),
-        ("azimuth_deg", 360, "allowed: \\[0, 360\\)"),
-        ("samples", 0, "allowed: >= 1"),
-        ("burn_in", -1, "allowed: >= 0"),
-        ("neighbours", 2, "allowed: >= 3"),
-        ("range_m", -5.0, "allowed: > 0"),
+        ("nugget", 1.0, "Allowed: \\[0, 1\\)"),
+        ("azimuth_deg", 360, "Allowed: \\[0, 360\\)"),
+        ("samples", 0, "Allowed: >= 1"),
+        ("burn_in", -1, "Allowed: >= 0"),
+        ("neighbours", 2, "Allowed: >= 3"),
+        ("range_m", -5.0, "Allowed: > 0"),
         ("deterministic", "yes", "must be true or false"),
         ("seed", True, "must be a whole number"),
     ],

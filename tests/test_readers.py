@@ -261,7 +261,11 @@ def test_vector_cores_without_core_id_field(tmp_path):
         tmp_path / "wells.gpkg", driver="GPKG"
     )
     path = write_project(tmp_path, keys={"inputs.cores": "wells.gpkg"}, cores=None)
-    with pytest.raises(InputError, match=r"wells\.gpkg, column 'core_id': is a missing field"):
+    with pytest.raises(
+        InputError,
+        match=r"project\.toml, line \d+, column 'inputs\.cores': names a file without the "
+        r"field 'core_id' \(got 'wells\.gpkg'\)",
+    ):
         load_project(path)
 
 

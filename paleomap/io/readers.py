@@ -103,7 +103,11 @@ def load_project(path: str | os.PathLike) -> Project:
         if value is None:
             return None
         target = root / value
-        if not target.exists():
+        try:
+            exists, folder = target.exists(), target.is_dir()
+        except (OSError, ValueError):  # e.g. a NUL byte or a name too long for the system
+            exists = folder = False
+        if not exists:
             log.error(
                 shown,
                 cfg.lines.get(key),
@@ -111,6 +115,16 @@ def load_project(path: str | os.PathLike) -> Project:
                 value,
                 "names a file that does not exist",
                 f"looked for {os.path.abspath(target)}; paths are relative to the project file",
+            )
+            return None
+        if folder:
+            log.error(
+                shown,
+                cfg.lines.get(key),
+                key,
+                value,
+                "names a folder, not a file",
+                "give the path of the file itself, relative to the project file",
             )
             return None
         return target
@@ -136,7 +150,10 @@ def load_project(path: str | os.PathLike) -> Project:
                 cores_target, cfg.cores, *CORE_COLUMNS, log, checksums, root
             )
         else:
-            cores_table = _read_core_vector(cores_target, cfg.cores, cfg.crs, log, checksums, root)
+            where = (shown, cfg.lines.get("inputs.cores"), "inputs.cores")
+            cores_table = _read_core_vector(
+                cores_target, cfg.cores, cfg.crs, log, checksums, root, where
+            )
 
     working = None
     if cfg.crs is not None:
@@ -173,19 +190,25 @@ def load_project(path: str | os.PathLike) -> Project:
         target = source("grid.area", str(grid.area))
         if target is not None:
             grid = replace(grid, area=target)
-            area = _read_area(target, str(cfg.grid.area), cfg.crs, working, log, checksums, root)
+            where = (shown, cfg.lines.get("grid.area"), "grid.area")
+            area = _read_area(
+                target, str(cfg.grid.area), cfg.crs, working, log, checksums, root, where
+            )
     migration = cfg.migration
     transect_lines: tuple = ()
     if migration.transects is not None:
         target = source("migration.transects", str(migration.transects))
         if target is not None:
             migration = replace(migration, transects=target)
+            where = (shown, cfg.lines.get("migration.transects"), "migration.transects")
             transect_lines = _read_transects(
-                target, str(cfg.migration.transects), cfg.crs, working, log, checksums, root
+                target, str(cfg.migration.transects), cfg.crs, working, log, checksums, root, where
             )
 
     if not log.has_errors and not cores:
-        log.error(cfg.cores, None, None, None, "lists no core", "add at least one core")
+        log.error(cfg.cores, 1, None, None, "lists no core", "add at least one core")
+    if not log.has_errors:
+        _check_grid_size(cores, grid, area, shown, TomlLocator(text), log)
     log.raise_if_errors()
     project = Project(
         name=cfg.name,
@@ -314,7 +337,7 @@ def _parse_csv(text: str, shown: str, required, optional, log: ProblemLog):
     """Text cells of a CSV file, with the line each row starts on."""
     example = ",".join(required)
     if not text.strip():
-        log.error(shown, None, None, None, "is empty", f"it needs a header row: {example}")
+        log.error(shown, 1, None, None, "is empty", f"it needs a header row: {example}")
         return None
     reader = csv.reader(io.StringIO(text, newline=""), skipinitialspace=True)
     header = None
@@ -345,6 +368,9 @@ def _parse_csv(text: str, shown: str, required, optional, log: ProblemLog):
         )
         return None
 
+    if header is None:  # only blank rows, e.g. ",,,"
+        log.error(shown, 1, None, None, "has no header row", f"it needs a header row: {example}")
+        return None
     names = [h.lower() for h in header]
     problems = False
     for i, n in enumerate(names):
@@ -392,21 +418,41 @@ def _parse_csv(text: str, shown: str, required, optional, log: ProblemLog):
     return table
 
 
-def _read_vector(path: Path, shown: str, log: ProblemLog):
+def _read_vector(path: Path, shown: str, log: ProblemLog, where):
     try:
         import pyogrio
 
-        return pyogrio.read_dataframe(path)
+        frame = pyogrio.read_dataframe(path)
     except Exception as exc:  # GDAL raises many kinds; all mean "cannot read this file"
-        log.error(
+        _file_problem(
+            log,
+            where,
             shown,
-            None,
-            None,
-            None,
-            f"cannot be read as a vector file: {exc}",
+            f"names a file that cannot be read as a vector file: {exc}",
             "give a CSV file or a vector file GDAL reads (GeoPackage, shapefile, GeoJSON)",
         )
         return None
+    if not hasattr(frame, "geometry"):
+        # GDAL reads some tables (CSV, spreadsheets) as attributes only.
+        _file_problem(
+            log,
+            where,
+            shown,
+            "names a file without geometries",
+            "give a vector file with the geometries (GeoPackage, shapefile, GeoJSON)",
+        )
+        return None
+    return frame
+
+
+def _file_problem(log: ProblemLog, where, shown: str, message: str, hint: str) -> None:
+    """A problem with a vector file as a whole, reported at the project-file key naming it.
+
+    A vector file has no text lines; its "lines" are features. A problem of the whole
+    file is shown at the line of the project file that names it.
+    """
+    project_file, line, key = where
+    log.error(project_file, line, key, shown, message, hint)
 
 
 def _file_crs(frame, project_crs, shown) -> pyproj.CRS | None:
@@ -417,24 +463,23 @@ def _file_crs(frame, project_crs, shown) -> pyproj.CRS | None:
     return pyproj.CRS.from_user_input(frame.crs)
 
 
-def _read_core_vector(path, shown, project_crs, log, checksums, root):
-    frame = _read_vector(path, shown, log)
+def _read_core_vector(path, shown, project_crs, log, checksums, root, where):
+    frame = _read_vector(path, shown, log, where)
     if frame is None:
         return None
     _checksum(path, root, checksums)
     columns = {c.lower(): c for c in frame.columns if c != "geometry"}
     if "core_id" not in columns:
-        log.error(
+        _file_problem(
+            log,
+            where,
             shown,
-            None,
-            "core_id",
-            None,
-            "is a missing field",
+            "names a file without the field 'core_id'",
             f"the file has the fields {list(columns.values())}",
         )
         return None
     if len(frame) == 0:
-        log.error(shown, None, None, None, "has no features", "add at least one core")
+        _file_problem(log, where, shown, "names a file with no features", "add at least one core")
         return None
     xs, ys, ok_rows = [], [], []
     for i, geom in enumerate(frame.geometry):
@@ -545,13 +590,15 @@ def _to_working(frame, shown, project_crs, working, log):
     return frame
 
 
-def _read_area(path, shown, project_crs, working, log, checksums, root):
-    frame = _read_vector(path, shown, log)
+def _read_area(path, shown, project_crs, working, log, checksums, root, where):
+    frame = _read_vector(path, shown, log, where)
     if frame is None:
         return None
     _checksum(path, root, checksums)
     if len(frame) == 0:
-        log.error(shown, None, None, None, "has no features", "give one or more polygons")
+        _file_problem(
+            log, where, shown, "names a file with no features", "give one or more polygons"
+        )
         return None
     ok = True
     for i, geom in enumerate(frame.geometry):
@@ -588,13 +635,13 @@ def _read_area(path, shown, project_crs, working, log, checksums, root):
     return union_all(list(frame.geometry))
 
 
-def _read_transects(path, shown, project_crs, working, log, checksums, root) -> tuple:
-    frame = _read_vector(path, shown, log)
+def _read_transects(path, shown, project_crs, working, log, checksums, root, where) -> tuple:
+    frame = _read_vector(path, shown, log, where)
     if frame is None:
         return ()
     _checksum(path, root, checksums)
     if len(frame) == 0:
-        log.error(shown, None, None, None, "has no features", "give one or more lines")
+        _file_problem(log, where, shown, "names a file with no features", "give one or more lines")
         return ()
     columns = {c.lower(): c for c in frame.columns if c != "geometry"}
     id_column = next((columns[c] for c in ("transect_id", "id", "name") if c in columns), None)
@@ -631,6 +678,74 @@ def _read_transects(path, shown, project_crs, working, log, checksums, root) -> 
             geom = geom.geoms[0]
         out.append((tid, geom))
     return tuple(out)
+
+
+def _check_grid_size(cores, grid, area, shown: str, locate: TomlLocator, log) -> None:
+    """Refuse, before any work, a grid with more cells than paleomap allocates.
+
+    The extent is the one :func:`paleomap.grid.make_grid` takes (the area's bounds, or
+    the cores' convex hull grown by the margin), so ``paleomap check`` reports the
+    problem at the line of ``cell_size`` and names a cell size that fits.
+    """
+    import shapely
+
+    from ..grid import MAX_GRID_CELLS, default_margin
+
+    cell = grid.cell_size
+    if area is not None:
+        minx, miny, maxx, maxy = area.bounds
+    else:
+        e = np.array([c.easting for c in cores], dtype=float)
+        n = np.array([c.northing for c in cores], dtype=float)
+        margin = grid.margin if grid.margin is not None else default_margin(e, n)
+        with np.errstate(all="ignore"):  # absurd coordinates (1e308) are reported below
+            hull = shapely.convex_hull(shapely.multipoints(np.column_stack([e, n])))
+        grow = max(margin, cell) if hull.area == 0 else margin
+        minx, miny, maxx, maxy = hull.bounds
+        minx, miny, maxx, maxy = minx - grow, miny - grow, maxx + grow, maxy + grow
+
+    def shape(size: float) -> tuple[float, float]:
+        with np.errstate(over="ignore", invalid="ignore", divide="ignore"):
+            cols = max(1.0, float(np.ceil(maxx / size) - np.floor(minx / size)))
+            rows = max(1.0, float(np.ceil(maxy / size) - np.floor(miny / size)))
+        return rows, cols
+
+    rows, cols = shape(cell)
+    cells = rows * cols
+    if np.isfinite(cells) and cells <= MAX_GRID_CELLS:
+        return
+    line = locate.line_of(("grid", "cell_size"))
+    width, height = maxx - minx, maxy - miny
+    with np.errstate(over="ignore", invalid="ignore"):
+        fit = float(np.ceil(np.sqrt(width * height / MAX_GRID_CELLS)))
+    if not (np.isfinite(fit) and fit > 0):
+        log.error(
+            shown,
+            line,
+            "grid.cell_size",
+            cell,
+            f"cannot grid an area of {width:.3g} x {height:.3g} m",
+            "check the core coordinates and the project CRS",
+        )
+        return
+    # The grid snaps outward to whole cells, so the size that fits may be a little larger.
+    while np.prod(shape(fit)) > MAX_GRID_CELLS:
+        fit = float(np.ceil(fit * 1.01))
+    log.error(
+        shown,
+        line,
+        "grid.cell_size",
+        cell,
+        f"gives a grid of {_count(rows)} x {_count(cols)} = {_count(cells)} cells, more than the "
+        f"{MAX_GRID_CELLS:,} paleomap allocates",
+        f"use cell_size = {fit:.0f} or larger",
+    )
+
+
+def _count(value: float) -> str:
+    if not np.isfinite(value):
+        return "more than 1e308"
+    return f"{value:,.0f}" if value < 1e15 else f"{value:.3g}"
 
 
 class _BeltNames:
