@@ -114,6 +114,27 @@ def scaled_distance(
     return np.sqrt((major / range_m) ** 2 + (minor / (anisotropy * range_m)) ** 2)
 
 
+def _correlation_inplace(model: str, r: np.ndarray, sill: float) -> np.ndarray:
+    """``sill * correlation(model, r)``, overwriting ``r`` (big chunk matrices)."""
+    if model == "exponential":
+        r *= -3.0
+        np.exp(r, out=r)
+    elif model == "gaussian":
+        r *= r
+        r *= -3.0
+        np.exp(r, out=r)
+    elif model == "matern32":
+        r *= _MATERN32_U95
+        tmp = np.exp(-r)
+        r += 1.0
+        r *= tmp
+    else:
+        r[:] = correlation(model, r)
+    if sill != 1.0:
+        r *= sill
+    return r
+
+
 @dataclass(frozen=True)
 class Covariance:
     """Stationary anisotropic covariance model of the latent residual.
@@ -187,11 +208,27 @@ class Covariance:
         The nugget is left out, so kriging with these vectors predicts the
         continuous part (a smooth map even with a nugget).
         """
-        e1 = np.asarray(e1, dtype=float).ravel()
-        n1 = np.asarray(n1, dtype=float).ravel()
-        e2 = np.asarray(e2, dtype=float).ravel()
-        n2 = np.asarray(n2, dtype=float).ravel()
-        return self.from_lags(e1[:, None] - e2[None, :], n1[:, None] - n2[None, :])
+        u1, v1 = self._scaled(e1, n1)
+        u2, v2 = self._scaled(e2, n2)
+        # Rotate and scale the points first, then difference: fewer passes over the
+        # (len(e1), len(e2)) arrays than differencing and rotating the lags.
+        r = np.subtract.outer(u1, u2)
+        r *= r
+        dv = np.subtract.outer(v1, v2)
+        dv *= dv
+        r += dv
+        del dv
+        np.sqrt(r, out=r)
+        return _correlation_inplace(self.model, r, self.sill)
+
+    def _scaled(self, easting: ArrayLike, northing: ArrayLike) -> tuple[np.ndarray, np.ndarray]:
+        """Coordinates along the major and minor axes in practical ranges."""
+        e = np.asarray(easting, dtype=float).ravel()
+        n = np.asarray(northing, dtype=float).ravel()
+        az = np.deg2rad(self.azimuth_deg)
+        major = (e * np.sin(az) + n * np.cos(az)) / self.range_m
+        minor = (e * np.cos(az) - n * np.sin(az)) / (self.anisotropy * self.range_m)
+        return major, minor
 
     def matrix(self, easting: ArrayLike, northing: ArrayLike) -> np.ndarray:
         """Covariance matrix of one point set, nugget on the diagonal."""

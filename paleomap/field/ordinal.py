@@ -606,9 +606,12 @@ def _slice_fields(model: SliceModel, settings: FieldSettings) -> np.ndarray:
     if settings.probability == "samples":
         return np.column_stack([ybar, y.T])
     d = (y - ybar).T / np.sqrt(max(y.shape[0] - 1, 1))  # (n, S)
-    u, s, _ = np.linalg.svd(d, full_matrices=False)
-    r = min(settings.moment_rank, int(np.sum(s > 1e-9 * max(s[0], 1e-300))))
-    return np.column_stack([ybar, u[:, :r] * s[:r]])
+    # Principal components through the small (S, S) Gram matrix: d V = U Sigma.
+    lam, v = np.linalg.eigh(d.T @ d)
+    order = np.argsort(lam)[::-1]
+    lam, v = lam[order], v[:, order]
+    r = min(settings.moment_rank, int(np.sum(lam > 1e-18 * max(lam[0], 1e-300))))
+    return np.column_stack([ybar, d @ v[:, :r]])
 
 
 def _empty_outputs(n_points: int, n_belts: int, settings: FieldSettings) -> dict:
@@ -637,14 +640,18 @@ def _fill(out, where, mean, fields, var, model, settings):
         sd = sd_k
         cdf = special.ndtr((t[None, :] - mean[:, None].astype(pdt)) / _floor(sd)[:, None])
     elif settings.probability == "samples":
-        spread = np.mean((fields - mean[:, None].astype(pdt)) ** 2, axis=1)
+        buf = fields - mean[:, None].astype(pdt)
+        spread = np.einsum("ij,ij->i", buf, buf) / fields.shape[1]
         sd = np.sqrt(sd_k * sd_k + spread)
-        sdf = _floor(sd_k)[:, None]
+        inv = (1.0 / _floor(sd_k))[:, None]
         cdf = np.empty((mean.size, t.size), dtype=pdt)
         for k in range(t.size):
-            cdf[:, k] = special.ndtr((t[k] - fields) / sdf).mean(axis=1)
+            np.subtract(t[k], fields, out=buf)
+            buf *= inv
+            special.ndtr(buf, out=buf)
+            cdf[:, k] = buf.mean(axis=1)
     else:
-        sd = np.sqrt(sd_k * sd_k + np.sum(fields * fields, axis=1))
+        sd = np.sqrt(sd_k * sd_k + np.einsum("ij,ij->i", fields, fields))
         cdf = special.ndtr((t[None, :] - mean[:, None].astype(pdt)) / _floor(sd)[:, None])
     if "latent_mean" in out:
         out["latent_mean"][where] = mean
@@ -685,7 +692,9 @@ def _predict_with_system(system, fields_by_key, models, outs, e, n, where, setti
         means = k @ alpha_mean + f @ beta_mean  # float64 for contouring and honouring
         allf = None
         if stacked.shape[1] > len(keys):
-            allf = (k.astype(pdt) @ alpha_p) + (f @ beta).astype(pdt)
+            kp = k if pdt == np.float64 else k.astype(pdt)
+            allf = kp @ alpha_p
+            allf += (f @ beta).astype(pdt)
         col = 0
         for j, key in enumerate(keys):
             w = widths[j]

@@ -245,22 +245,25 @@ def truncated_normal(
     mean, sd, lower, upper = np.broadcast_arrays(
         *(np.asarray(v, dtype=float) for v in (mean, sd, lower, upper))
     )
+    u = rng.random(mean.shape)
+    return _truncnorm_from_uniform(mean, sd, lower, upper, np.log(u), np.log1p(-u))
+
+
+def _truncnorm_from_uniform(mean, sd, lower, upper, log_u, log_1mu):
+    """Inverse-CDF truncated-normal draw given log(u) and log(1 - u).
+
+    Intervals are flipped onto the lower tail (where log Phi is accurate) and the
+    draw is ``Phi⁻¹((1 - u) Phi(a) + u Phi(b))`` evaluated in log space.
+    """
     a = (lower - mean) / sd
     b = (upper - mean) / sd
-    # Work on the lower tail, where log Phi is accurate: flip intervals above 0.
-    flip = a > 0
+    flip = a > -b  # the interval lies mostly above 0 (no inf - inf)
     a2 = np.where(flip, -b, a)
     b2 = np.where(flip, -a, b)
-    la = special.log_ndtr(a2)
-    lb = special.log_ndtr(b2)
-    u = rng.random(a.shape)
-    with np.errstate(invalid="ignore", over="ignore"):
-        lu = la + np.log1p(u * np.expm1(lb - la))
-    lu = np.where(np.isfinite(la), lu, lb + np.log(u))
+    lu = np.logaddexp(log_1mu + special.log_ndtr(a2), log_u + special.log_ndtr(b2))
     z = special.ndtri_exp(np.minimum(lu, 0.0))
-    z = np.clip(z, a2, b2)
-    z = np.where(flip, -z, z)
-    return mean + sd * z
+    np.clip(z, a2, b2, out=z)
+    return mean + sd * np.where(flip, -z, z)
 
 
 def truncated_normal_mean(
@@ -510,9 +513,11 @@ def gibbs_sample(
     sweeps = burn_in + per_chain * thin
     k = 0
     for sweep in range(1, sweeps + 1):
+        u = rng.random(y.shape)
+        log_u, log_1mu = np.log(u), np.log1p(-u)
         for i in range(n):
             m = cond.mean(i, y)
-            y[i] = truncated_normal(m, cond.sd[i], lo_r[i], hi_r[i], rng)
+            y[i] = _truncnorm_from_uniform(m, cond.sd[i], lo_r[i], hi_r[i], log_u[i], log_1mu[i])
         if not np.all(np.isfinite(y)):
             raise ValueError(
                 "Gibbs sampler diverged: the latent covariance is numerically singular "
