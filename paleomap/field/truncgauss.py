@@ -262,7 +262,7 @@ def _truncnorm_from_uniform(mean, sd, lower, upper, log_u, log_1mu):
     b2 = np.where(flip, -a, b)
     lu = np.logaddexp(log_1mu + special.log_ndtr(a2), log_u + special.log_ndtr(b2))
     z = special.ndtri_exp(np.minimum(lu, 0.0))
-    np.clip(z, a2, b2, out=z)
+    z = np.clip(z, a2, b2)
     return mean + sd * np.where(flip, -z, z)
 
 
