@@ -455,7 +455,7 @@ def wheeler_chart(
             f"Chronostratigraphic (Wheeler) chart along {s.transect}, {len(a)} ages",
             loc="left",
             fontsize=10,
-            pad=10,
+            pad=14,
         )
 
         handles = [
