@@ -169,8 +169,11 @@ def belt_polygons(latent, grid, thresholds: np.ndarray, *, nodes: NodeField | No
         for pts, off in zip(points, offsets, strict=True):
             rings = [pts[off[i] : off[i + 1]] for i in range(len(off) - 1)]
             polys.append(shapely.Polygon(rings[0], rings[1:]))
-        geom = shapely.union_all(shapely.make_valid(np.array(polys, dtype=object))) if polys \
+        geom = (
+            shapely.union_all(shapely.make_valid(np.array(polys, dtype=object)))
+            if polys
             else shapely.Polygon()
+        )
         geom = shapely.intersection(geom, area)
         out.append(_polygonal(geom))
     return out

@@ -177,8 +177,16 @@ def make_grid(
     area = shapely.make_valid(area)
     if area.is_empty or area.area <= 0:
         raise InputError(
-            [Problem("project.toml", None, "grid.area", None, "the mapped area is empty",
-                     "give an area polygon that covers the cores, or a positive margin")]
+            [
+                Problem(
+                    "project.toml",
+                    None,
+                    "grid.area",
+                    None,
+                    "the mapped area is empty",
+                    "give an area polygon that covers the cores, or a positive margin",
+                )
+            ]
         )
     minx, miny, maxx, maxy = area.bounds
     west = np.floor(minx / cell_size) * cell_size
@@ -190,18 +198,28 @@ def make_grid(
     if n_rows * n_cols > max_cells:
         fit = cell_size * np.sqrt(n_rows * n_cols / max_cells)
         raise InputError(
-            [Problem(
-                "project.toml", None, "grid.cell_size", cell_size,
-                f"gives a grid of {n_rows} x {n_cols} = {n_rows * n_cols:,} cells, more than "
-                f"the {max_cells:,} paleomap allocates",
-                f"use cell_size = {np.ceil(fit):.0f} or larger",
-            )]
+            [
+                Problem(
+                    "project.toml",
+                    None,
+                    "grid.cell_size",
+                    cell_size,
+                    f"gives a grid of {n_rows} x {n_cols} = {n_rows * n_cols:,} cells, more than "
+                    f"the {max_cells:,} paleomap allocates",
+                    f"use cell_size = {np.ceil(fit):.0f} or larger",
+                )
+            ]
         )
     e = west + (np.arange(n_cols) + 0.5) * cell_size
     n = north - (np.arange(n_rows) + 0.5) * cell_size
     ee, nn = np.meshgrid(e, n)
     shapely.prepare(area)
     mask = shapely.contains_xy(area, ee, nn)
-    log.debug("grid: %d x %d cells of %.1f m, %d inside the mapped area",
-              n_rows, n_cols, cell_size, int(mask.sum()))
+    log.debug(
+        "grid: %d x %d cells of %.1f m, %d inside the mapped area",
+        n_rows,
+        n_cols,
+        cell_size,
+        int(mask.sum()),
+    )
     return Grid(float(west), float(north), float(cell_size), n_rows, n_cols, area, mask, crs)

@@ -96,8 +96,9 @@ def build_layers(result: BuildResult) -> dict[str, pd.DataFrame]:
         cores = cores.merge(extra, on="core_id", how="left")
     cores_gdf = gpd.GeoDataFrame(
         cores,
-        geometry=shapely.points([c.easting for c in project.cores],
-                                [c.northing for c in project.cores]),
+        geometry=shapely.points(
+            [c.easting for c in project.cores], [c.northing for c in project.cores]
+        ),
         crs=crs,
     )
 
@@ -125,15 +126,35 @@ def build_layers(result: BuildResult) -> dict[str, pd.DataFrame]:
             if geom.is_empty:
                 continue
             b = scheme.belts[rank]
-            belt_rows.append(dict(slice=m.slice.name, age=m.slice.age, belt=b.id, rank=rank,
-                                  marine=b.marine, area_km2=geom.area / 1e6,
-                                  geometry=_multi(geom, shapely.MultiPolygon)))
-        line_rows.append(dict(slice=m.slice.name, age=m.slice.age, boundary=boundary,
-                              length_km=m.shoreline.length / 1e3,
-                              geometry=_multi(m.shoreline, shapely.MultiLineString)))
-        band_rows.append(dict(slice=m.slice.name, age=m.slice.age, boundary=boundary,
-                              area_km2=m.band.area / 1e6,
-                              geometry=_multi(m.band, shapely.MultiPolygon)))
+            belt_rows.append(
+                dict(
+                    slice=m.slice.name,
+                    age=m.slice.age,
+                    belt=b.id,
+                    rank=rank,
+                    marine=b.marine,
+                    area_km2=geom.area / 1e6,
+                    geometry=_multi(geom, shapely.MultiPolygon),
+                )
+            )
+        line_rows.append(
+            dict(
+                slice=m.slice.name,
+                age=m.slice.age,
+                boundary=boundary,
+                length_km=m.shoreline.length / 1e3,
+                geometry=_multi(m.shoreline, shapely.MultiLineString),
+            )
+        )
+        band_rows.append(
+            dict(
+                slice=m.slice.name,
+                age=m.slice.age,
+                boundary=boundary,
+                area_km2=m.band.area / 1e6,
+                geometry=_multi(m.band, shapely.MultiPolygon),
+            )
+        )
         quality_rows.append(dict(slice=m.slice.name, age=m.slice.age, **m.quality))
     # A slice with no boundary in the mapped area keeps its row (with an empty line),
     # so the GIS and the report show that it was looked for and not found.
@@ -143,23 +164,49 @@ def build_layers(result: BuildResult) -> dict[str, pd.DataFrame]:
     quality = pd.DataFrame(quality_rows)
 
     transects = _gdf(
-        [dict(transect=t.transect, azimuth_deg=t.azimuth_deg, length_km=t.line.length / 1e3,
-              source=t.source, lsq_rate_m_per_kyr=t.lsq_rate_m_per_kyr, geometry=t.line)
-         for t in result.transects],
+        [
+            dict(
+                transect=t.transect,
+                azimuth_deg=t.azimuth_deg,
+                length_km=t.line.length / 1e3,
+                source=t.source,
+                lsq_rate_m_per_kyr=t.lsq_rate_m_per_kyr,
+                geometry=t.line,
+            )
+            for t in result.transects
+        ],
         ["transect", "azimuth_deg", "length_km", "source", "lsq_rate_m_per_kyr"],
         crs,
     )
-    shift_cols = ["transect", "older_slice", "younger_slice", "older_age", "younger_age",
-                  "shift_m", "shift_low_m", "shift_high_m", "rate_m_per_kyr", "rate_low",
-                  "rate_high", "sense", "older_crossings", "younger_crossings"]
-    shifts = gpd.GeoDataFrame(result.shifts[[*shift_cols, "geometry"]].copy()
-                              if len(result.shifts) else
-                              pd.DataFrame(columns=[*shift_cols, "geometry"]),
-                              geometry="geometry", crs=crs)
+    shift_cols = [
+        "transect",
+        "older_slice",
+        "younger_slice",
+        "older_age",
+        "younger_age",
+        "shift_m",
+        "shift_low_m",
+        "shift_high_m",
+        "rate_m_per_kyr",
+        "rate_low",
+        "rate_high",
+        "sense",
+        "older_crossings",
+        "younger_crossings",
+    ]
+    shifts = gpd.GeoDataFrame(
+        result.shifts[[*shift_cols, "geometry"]].copy()
+        if len(result.shifts)
+        else pd.DataFrame(columns=[*shift_cols, "geometry"]),
+        geometry="geometry",
+        crs=crs,
+    )
 
     run_info = pd.DataFrame(
-        [dict(key=k, value=v if isinstance(v, str) else json.dumps(v, default=str))
-         for k, v in result.run_info.items()]
+        [
+            dict(key=k, value=v if isinstance(v, str) else json.dumps(v, default=str))
+            for k, v in result.run_info.items()
+        ]
     )
     return {
         "cores": cores_gdf,

@@ -89,8 +89,9 @@ def _nice(x: float) -> float:
     return float(p)
 
 
-def default_transects(area, dip_azimuth_deg: float, spacing_m: float | None = None, *,
-                      count: int = 10):
+def default_transects(
+    area, dip_azimuth_deg: float, spacing_m: float | None = None, *, count: int = 10
+):
     """Parallel dip transects, landward to basinward, evenly spaced across ``area``.
 
     Parameters
@@ -112,8 +113,11 @@ def default_transects(area, dip_azimuth_deg: float, spacing_m: float | None = No
     dip = np.array([np.sin(a), np.cos(a)])  # (east, north) unit vector down dip
     strike = np.array([dip[1], -dip[0]])
     cx, cy = area.centroid.x, area.centroid.y
-    coords = np.asarray(shapely.get_coordinates(area.exterior if hasattr(area, "exterior")
-                                                else shapely.convex_hull(area).exterior))
+    coords = np.asarray(
+        shapely.get_coordinates(
+            area.exterior if hasattr(area, "exterior") else shapely.convex_hull(area).exterior
+        )
+    )
     rel = coords - [cx, cy]
     s_min, s_max = (rel @ strike).min(), (rel @ strike).max()
     d_min, d_max = (rel @ dip).min(), (rel @ dip).max()
@@ -121,10 +125,13 @@ def default_transects(area, dip_azimuth_deg: float, spacing_m: float | None = No
     if spacing_m is None:
         spacing_m = _nice(width / count)
     n = max(1, int(np.floor(width / spacing_m)))
-    offsets = s_min + (width - (n - 1) * spacing_m) / 2 + spacing_m * np.arange(n) if n > 1 \
+    offsets = (
+        s_min + (width - (n - 1) * spacing_m) / 2 + spacing_m * np.arange(n)
+        if n > 1
         else np.array([(s_min + s_max) / 2])
+    )
     out = []
-    for i, s in enumerate(offsets):
+    for s in offsets:
         p0 = np.array([cx, cy]) + s * strike + (d_min - 1.0) * dip
         p1 = np.array([cx, cy]) + s * strike + (d_max + 1.0) * dip
         line = shapely.intersection(shapely.LineString([p0, p1]), area)
@@ -151,8 +158,9 @@ class TransectPosition:
     crossings: int
 
 
-def transect_position(line, latent_at, threshold: float, distal_probability_at,
-                      step_m: float) -> TransectPosition:
+def transect_position(
+    line, latent_at, threshold: float, distal_probability_at, step_m: float
+) -> TransectPosition:
     """Position of the boundary along ``line``.
 
     Parameters
@@ -199,16 +207,30 @@ def _split_normal(rng, median, low, high, size):
     return median + np.where(z < 0, z * sd_low, z * sd_high)
 
 
-def shift_statistics(older: TransectPosition, younger: TransectPosition, older_age_kyr: float,
-                     younger_age_kyr: float, older_sd_kyr: float = 0.0,
-                     younger_sd_kyr: float = 0.0, *, draws: int = 4000, seed: int = 0) -> dict:
+def shift_statistics(
+    older: TransectPosition,
+    younger: TransectPosition,
+    older_age_kyr: float,
+    younger_age_kyr: float,
+    older_sd_kyr: float = 0.0,
+    younger_sd_kyr: float = 0.0,
+    *,
+    draws: int = 4000,
+    seed: int = 0,
+) -> dict:
     """Signed shift (positive landward) and rate between two slices, with P10-P90.
 
     Returns a dict with shift_m, shift_low_m, shift_high_m, rate_m_per_kyr, rate_low,
     rate_high (NaN where either position is undefined).
     """
-    nan = dict(shift_m=np.nan, shift_low_m=np.nan, shift_high_m=np.nan,
-               rate_m_per_kyr=np.nan, rate_low=np.nan, rate_high=np.nan)
+    nan = dict(
+        shift_m=np.nan,
+        shift_low_m=np.nan,
+        shift_high_m=np.nan,
+        rate_m_per_kyr=np.nan,
+        rate_low=np.nan,
+        rate_high=np.nan,
+    )
     if not (np.isfinite(older.position_m) and np.isfinite(younger.position_m)):
         return nan
     dt = older_age_kyr - younger_age_kyr
@@ -264,8 +286,9 @@ def classify_sense(rates, tolerance: float) -> list[str]:
     return out
 
 
-def area_change(distal_older, distal_younger, length_older_m: float,
-                length_younger_m: float) -> dict:
+def area_change(
+    distal_older, distal_younger, length_older_m: float, length_younger_m: float
+) -> dict:
     """Areas flooded and exposed between two slices, and the net shift they imply.
 
     Flooded: on the distal side at the younger slice but not at the older; exposed: the

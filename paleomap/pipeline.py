@@ -40,7 +40,15 @@ from .migration import (
 from .project import Project, Slice
 from .shoreline import distal_region, shoreline, shoreline_band
 
-__all__ = ["BuildResult", "SliceMap", "Transect", "build", "compute", "write_build"]
+__all__ = [
+    "BuildResult",
+    "SliceMap",
+    "Transect",
+    "build",
+    "compute",
+    "field_settings",
+    "write_build",
+]
 
 log = logging.getLogger(__name__)
 
@@ -147,8 +155,14 @@ def compute(project: Project) -> BuildResult:
     with sw.stage("grid"):
         e = np.array([c.easting for c in project.cores])
         n = np.array([c.northing for c in project.cores])
-        grid = make_grid(e, n, cell_size=project.grid.cell_size, margin=project.grid.margin,
-                         area=project.area, crs=project.working_crs)
+        grid = make_grid(
+            e,
+            n,
+            cell_size=project.grid.cell_size,
+            margin=project.grid.margin,
+            area=project.area,
+            crs=project.working_crs,
+        )
     with sw.stage("field"):
         fields = _map_fields(project, samples, grid)
     b = scheme.tracked_boundary
@@ -165,27 +179,185 @@ def compute(project: Project) -> BuildResult:
         if reading is not None and len(pairs):
             pairs = _with_core_counts(pairs, reading)
     run_info = _run_info(project, grid, maps)
-    return BuildResult(project, grid, samples, maps, transects, positions, shifts, pairs,
-                       reading, run_info, sw.times, age_models)
+    return BuildResult(
+        project,
+        grid,
+        samples,
+        maps,
+        transects,
+        positions,
+        shifts,
+        pairs,
+        reading,
+        run_info,
+        sw.times,
+        age_models,
+    )
 
 
 # --------------------------------------------------------------------------- field
 
 
+def field_settings(project: Project):
+    """The engine's settings from the project's ``[mapping]`` table.
+
+    Returns a :class:`~paleomap.field.shared.SharedSettings` when ``joint`` (the
+    default), else a :class:`~paleomap.field.ordinal.FieldSettings`.
+    """
+    from .field import FieldSettings
+    from .field.shared import SharedSettings
+
+    m = project.mapping
+    overrides = {
+        k: v
+        for k, v in dict(
+            model=None if m.model == "auto" else m.model,
+            range_m=m.range_m,
+            anisotropy=m.anisotropy,
+            azimuth_deg=m.azimuth_deg,
+            nugget=m.nugget,
+        ).items()
+        if v is not None
+    }
+    kwargs = dict(
+        covariance=overrides or None,
+        samples=m.samples,
+        burn_in=m.burn_in,
+        seed=m.seed,
+        deterministic=m.deterministic,
+    )
+    if m.joint:
+        return SharedSettings(**kwargs)
+    if m.neighbours is not None:
+        kwargs["kriging_neighbours"] = m.neighbours
+    return FieldSettings(**kwargs)
+
+
+@dataclass(frozen=True, eq=False)
+class _SliceField:
+    """What the belts stage needs of one slice's field."""
+
+    core_ids: tuple
+    easting: np.ndarray
+    northing: np.ndarray
+    ranks: np.ndarray
+    thresholds: np.ndarray
+    latent_mean: np.ndarray
+    latent_sd: np.ndarray
+    probabilities: np.ndarray
+    quality: dict
+
+
 def _map_fields(project: Project, samples: pd.DataFrame, grid: Grid):
     """Ordinal fields of every slice, sharing kriging work between slices with the same
-    cores. Returns [(Slice, FieldResult)] in slice order (oldest first)."""
+    cores. Returns [(Slice, _SliceField)] in slice order (oldest first)."""
     from .field import map_slices
 
+    ids = [c.core_id for c in project.cores]
+    index = {cid: i for i, cid in enumerate(ids)}
+    e = np.array([c.easting for c in project.cores])
+    n = np.array([c.northing for c in project.cores])
     by_slice = {}
     for sl in project.slices:
         rows = samples[samples["slice"] == sl.name]
-        by_slice[sl.name] = (tuple(rows["core_id"]), rows["rank"].to_numpy(int),
-                             rows["easting"].to_numpy(float), rows["northing"].to_numpy(float))
+        if len(rows) < 2:
+            import warnings
+
+            warnings.warn(
+                f"slice {sl.name!r}: only {len(rows)} core(s) have a record at "
+                f"{sl.age:g} {project.age_unit}; the slice is not mapped",
+                PaleomapWarning,
+                stacklevel=2,
+            )
+            continue
+        by_slice[sl.name] = (
+            np.array([index[c] for c in rows["core_id"]]),
+            rows["rank"].to_numpy(int),
+        )
+    if not by_slice:
+        return []
     ce, cn = grid.cell_centres()
-    results = map_slices(by_slice, (ce, cn), project.scheme.n_belts, project.mapping,
-                         grid_shape=grid.shape)
-    return [(sl, results[sl.name]) for sl in project.slices if sl.name in results]
+    settings = field_settings(project)
+    if project.mapping.joint:
+        return _joint_fields(project, by_slice, ids, e, n, ce, cn, settings)
+    results, fit = map_slices(e, n, by_slice, ce, cn, project.scheme.n_belts, settings)
+    cov = fit.covariance.as_dict()
+    out = []
+    for sl in project.slices:
+        if sl.name not in results:
+            continue
+        r = results[sl.name]
+        model = r.model
+        idx = np.asarray(model.core_index)
+        cv = model.cross_validation
+        quality = dict(
+            method="per_slice",
+            loo_share_in_own_belt=float(cv.share_in_own_belt) if cv else np.nan,
+            loo_mean_abs_rank_error=float(cv.mean_abs_rank_error) if cv else np.nan,
+            **_cov_fields(cov, "relief"),
+        )
+        out.append(
+            (
+                sl,
+                _SliceField(
+                    tuple(ids[i] for i in idx),
+                    e[idx],
+                    n[idx],
+                    np.asarray(model.ranks),
+                    np.asarray(model.thresholds),
+                    r.latent_mean,
+                    r.latent_sd,
+                    r.probabilities,
+                    quality,
+                ),
+            )
+        )
+    return out
+
+
+def _cov_fields(cov: dict, prefix: str) -> dict:
+    return {f"{prefix}_{k}": v for k, v in cov.items()}
+
+
+def _joint_fields(project, by_slice, ids, e, n, ce, cn, settings):
+    from .field.shared import map_shared
+
+    results, fit = map_shared(e, n, by_slice, ce, cn, project.scheme.n_belts, settings)
+    relief = _cov_fields(fit.relief.as_dict(), "relief")
+    local = {
+        "slice_residual_variance": float(fit.local.sill),
+        "slice_residual_range_m": float(fit.local.range_m),
+    }
+    out = []
+    for sl in project.slices:
+        if sl.name not in results:
+            continue
+        r = results[sl.name]
+        idx = np.asarray(r.core_index)
+        quality = dict(
+            method="joint",
+            loo_share_in_own_belt=r.share_in_own_belt,
+            loo_mean_abs_rank_error=r.mean_abs_rank_error,
+            **relief,
+            **local,
+        )
+        out.append(
+            (
+                sl,
+                _SliceField(
+                    tuple(ids[i] for i in idx),
+                    e[idx],
+                    n[idx],
+                    r.ranks,
+                    r.thresholds,
+                    r.latent_mean,
+                    r.latent_sd,
+                    r.probabilities,
+                    quality,
+                ),
+            )
+        )
+    return out
 
 
 def _slice_map(project: Project, grid: Grid, sl: Slice, fr, b: int) -> SliceMap:
@@ -199,18 +371,35 @@ def _slice_map(project: Project, grid: Grid, sl: Slice, fr, b: int) -> SliceMap:
     honour_cores(nodes, fr.easting, fr.northing, fr.ranks, t)
     polygons = belt_polygons(None, grid, t, nodes=nodes)
     line = shoreline(nodes, float(t[b - 1]), grid.area)
-    m = SliceMap(sl, tuple(fr.core_ids), np.asarray(fr.ranks), t, latent, latent_sd, probs,
-                 nodes, polygons, line, None, distal_region(polygons, b))
+    m = SliceMap(
+        sl,
+        tuple(fr.core_ids),
+        np.asarray(fr.ranks),
+        t,
+        latent,
+        latent_sd,
+        probs,
+        nodes,
+        polygons,
+        line,
+        None,
+        distal_region(polygons, b),
+    )
     m.set_boundary(b)
     m.band = shoreline_band(m.distal_probability, grid)
-    inside = [bool(shapely.contains_xy(polygons[r], e, n)) if not polygons[r].is_empty else False
-              for e, n, r in zip(fr.easting, fr.northing, fr.ranks, strict=True)]
+    inside = [
+        bool(shapely.contains_xy(polygons[r], e, n)) if not polygons[r].is_empty else False
+        for e, n, r in zip(fr.easting, fr.northing, fr.ranks, strict=True)
+    ]
     touching = walther_contacts(polygons)
     if touching:
         import warnings
 
-        warnings.warn(f"slice {sl.name}: belts {touching} touch though they are not "
-                      "neighbours in the scheme", PaleomapWarning, stacklevel=2)
+        warnings.warn(
+            f"slice {sl.name}: belts {touching} touch though they are not neighbours in the scheme",
+            PaleomapWarning,
+            stacklevel=2,
+        )
     if line.is_empty:
         import warnings
 
@@ -218,7 +407,9 @@ def _slice_map(project: Project, grid: Grid, sl: Slice, fr, b: int) -> SliceMap:
             f"slice {sl.name!r}: the tracked boundary "
             f"{project.scheme.boundary_name(b)!r} does not cross the mapped area (every core "
             "records the same side of it); no shoreline is drawn for this slice",
-            PaleomapWarning, stacklevel=2)
+            PaleomapWarning,
+            stacklevel=2,
+        )
     m.quality = dict(
         cores_used=len(fr.core_ids),
         cores_in_own_belt=int(sum(inside)),
@@ -250,12 +441,29 @@ def _positions(project: Project, grid: Grid, maps: list[SliceMap], b: int):
         pnodes = node_field(m.distal_probability, grid)
         for tr in transects:
             pos = transect_position(tr.line, m.nodes.at, t_b, pnodes.at, step)
-            rows.append(dict(transect=tr.transect, slice=m.slice.name, age=m.slice.age,
-                             position_m=pos.position_m, position_low_m=pos.low_m,
-                             position_high_m=pos.high_m, crossings=pos.crossings))
-    return transects, pd.DataFrame(rows, columns=[
-        "transect", "slice", "age", "position_m", "position_low_m", "position_high_m",
-        "crossings"])
+            rows.append(
+                dict(
+                    transect=tr.transect,
+                    slice=m.slice.name,
+                    age=m.slice.age,
+                    position_m=pos.position_m,
+                    position_low_m=pos.low_m,
+                    position_high_m=pos.high_m,
+                    crossings=pos.crossings,
+                )
+            )
+    return transects, pd.DataFrame(
+        rows,
+        columns=[
+            "transect",
+            "slice",
+            "age",
+            "position_m",
+            "position_low_m",
+            "position_high_m",
+            "crossings",
+        ],
+    )
 
 
 def _ordered_pairs(maps: list[SliceMap]):
@@ -278,40 +486,60 @@ def _shifts(project: Project, maps, transects, positions):
         for tr in transects:
             po, py = pos[(tr.transect, old.slice.name)], pos[(tr.transect, young.slice.name)]
             stats = shift_statistics(
-                TransectPosition(po.position_m, po.position_low_m, po.position_high_m,
-                                 po.crossings),
-                TransectPosition(py.position_m, py.position_low_m, py.position_high_m,
-                                 py.crossings),
-                old.slice.age * kyr, young.slice.age * kyr,
+                TransectPosition(
+                    po.position_m, po.position_low_m, po.position_high_m, po.crossings
+                ),
+                TransectPosition(
+                    py.position_m, py.position_low_m, py.position_high_m, py.crossings
+                ),
+                old.slice.age * kyr,
+                young.slice.age * kyr,
                 sd.get(old.slice.surface or "", 0.0) * kyr,
                 sd.get(young.slice.surface or "", 0.0) * kyr,
                 seed=k,
             )
             if np.isfinite(stats["shift_m"]):
                 line = lines[tr.transect]
-                geom = shapely.LineString([
-                    shapely.line_interpolate_point(line, po.position_m).coords[0],
-                    shapely.line_interpolate_point(line, py.position_m).coords[0]])
+                geom = shapely.LineString(
+                    [
+                        shapely.line_interpolate_point(line, po.position_m).coords[0],
+                        shapely.line_interpolate_point(line, py.position_m).coords[0],
+                    ]
+                )
             else:
                 geom = None
-            rows.append(dict(transect=tr.transect, older_slice=old.slice.name,
-                             younger_slice=young.slice.name, older_age=old.slice.age,
-                             younger_age=young.slice.age, **stats,
-                             sense=classify_sense([stats["rate_m_per_kyr"]], tol)[0],
-                             older_crossings=po.crossings, younger_crossings=py.crossings,
-                             geometry=geom))
-        area = area_change(old.distal, young.distal, old.shoreline.length,
-                           young.shoreline.length)
+            rows.append(
+                dict(
+                    transect=tr.transect,
+                    older_slice=old.slice.name,
+                    younger_slice=young.slice.name,
+                    older_age=old.slice.age,
+                    younger_age=young.slice.age,
+                    **stats,
+                    sense=classify_sense([stats["rate_m_per_kyr"]], tol)[0],
+                    older_crossings=po.crossings,
+                    younger_crossings=py.crossings,
+                    geometry=geom,
+                )
+            )
+        area = area_change(old.distal, young.distal, old.shoreline.length, young.shoreline.length)
         dt = (old.slice.age - young.slice.age) * kyr
-        rates = [r["rate_m_per_kyr"] for r in rows[-len(transects):]] if transects else []
+        rates = [r["rate_m_per_kyr"] for r in rows[-len(transects) :]] if transects else []
         rates = np.array([r for r in rates if np.isfinite(r)])
         median = float(np.median(rates)) if rates.size else np.nan
-        pair_rows.append(dict(
-            older_slice=old.slice.name, younger_slice=young.slice.name,
-            older_age=old.slice.age, younger_age=young.slice.age, **area,
-            net_rate_m_per_kyr=area["net_shift_m"] / dt if dt > 0 else np.nan,
-            median_rate_m_per_kyr=median, transects_used=int(rates.size),
-            sense=classify_sense([median], tol)[0]))
+        pair_rows.append(
+            dict(
+                older_slice=old.slice.name,
+                younger_slice=young.slice.name,
+                older_age=old.slice.age,
+                younger_age=young.slice.age,
+                **area,
+                net_rate_m_per_kyr=area["net_shift_m"] / dt if dt > 0 else np.nan,
+                median_rate_m_per_kyr=median,
+                transects_used=int(rates.size),
+                sense=classify_sense([median], tol)[0],
+            )
+        )
     shifts = pd.DataFrame(rows)
     pairs = pd.DataFrame(pair_rows)
     # least-squares rate per transect over every slice
@@ -340,11 +568,15 @@ def _with_core_counts(pairs: pd.DataFrame, reading) -> pd.DataFrame:
         mapped[(r.older_slice, r.younger_slice)] = r.sense or None
     checked = cross_check(reading.region, mapped)
     keep = [c for c in checked.columns if c not in ("older_age", "younger_age")]
-    merged = pairs.merge(checked[keep], how="left",
-                         left_on=["older_slice", "younger_slice"],
-                         right_on=["older_surface", "younger_surface"])
-    return merged.drop(columns=[c for c in ("older_surface", "younger_surface")
-                                if c in merged.columns])
+    merged = pairs.merge(
+        checked[keep],
+        how="left",
+        left_on=["older_slice", "younger_slice"],
+        right_on=["older_surface", "younger_surface"],
+    )
+    return merged.drop(
+        columns=[c for c in ("older_surface", "younger_surface") if c in merged.columns]
+    )
 
 
 # ---------------------------------------------------------------------- provenance
@@ -364,8 +596,13 @@ def _run_info(project: Project, grid: Grid, maps) -> dict:
         "depth_unit": project.depth_unit,
         "scheme": project.scheme.name,
         "tracked_boundary": project.scheme.boundary_name(project.scheme.tracked_boundary),
-        "grid": dict(cell_size_m=grid.cell_size, rows=grid.n_rows, cols=grid.n_cols,
-                     west=grid.west, north=grid.north),
+        "grid": dict(
+            cell_size_m=grid.cell_size,
+            rows=grid.n_rows,
+            cols=grid.n_cols,
+            west=grid.west,
+            north=grid.north,
+        ),
         "slices": [m.slice.name for m in maps],
     }
 
@@ -373,8 +610,14 @@ def _run_info(project: Project, grid: Grid, maps) -> dict:
 # ---------------------------------------------------------------------- writing
 
 
-def write_build(result: BuildResult, out: str | Path, *, overwrite: bool = False,
-                figures: bool = True, report: bool = True) -> Path:
+def write_build(
+    result: BuildResult,
+    out: str | Path,
+    *,
+    overwrite: bool = False,
+    figures: bool = True,
+    report: bool = True,
+) -> Path:
     """Write a computed build into ``out`` atomically.
 
     The folder is written beside ``out`` and moved into place only when complete; an
@@ -389,8 +632,14 @@ def write_build(result: BuildResult, out: str | Path, *, overwrite: bool = False
     return out
 
 
-def build(project: Project, out: str | Path, *, overwrite: bool = False, figures: bool = True,
-          report: bool = True) -> BuildResult:
+def build(
+    project: Project,
+    out: str | Path,
+    *,
+    overwrite: bool = False,
+    figures: bool = True,
+    report: bool = True,
+) -> BuildResult:
     """Compute every map of ``project`` and write the build folder ``out``.
 
     Refuses to replace an existing build unless ``overwrite`` (checked before any work).
@@ -407,4 +656,3 @@ def build(project: Project, out: str | Path, *, overwrite: bool = False, figures
     write_build(result, out, overwrite=overwrite, figures=figures, report=report)
     result.timings["writing"] = time.perf_counter() - t
     return result
-

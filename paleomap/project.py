@@ -122,6 +122,10 @@ class MappingSettings:
         Skip sampling; use each core's truncated-interval mean (fast).
     neighbours : int or None
         Cores in a local kriging neighbourhood; ``None`` lets paleomap choose.
+    joint : bool
+        Map all slices together with a latent relief shared between them (the
+        inherited paleotopography; :mod:`paleomap.field.shared`), or each slice on its
+        own (:mod:`paleomap.field.ordinal`).
     """
 
     model: str = "auto"
@@ -134,6 +138,7 @@ class MappingSettings:
     seed: int = 0
     deterministic: bool = False
     neighbours: int | None = None
+    joint: bool = True
 
 
 @dataclass(frozen=True)
@@ -227,6 +232,7 @@ _TABLES = {
         "seed",
         "deterministic",
         "neighbours",
+        "joint",
     ),
     "migration": ("transects", "transect_spacing_m", "stillstand_m_per_kyr"),
 }
@@ -683,6 +689,7 @@ class _ConfigReader:
         unit = age_unit or "age unit"
         out: list[Surface] = []
         seen: dict[str, int] = {}
+        ages: dict[float, tuple[int, str]] = {}
         ok = True
         for i, table in enumerate(raw):
             path = ("surfaces", i)
@@ -716,10 +723,24 @@ class _ConfigReader:
                     "give each surface its own name",
                 )
                 name = None
+            if name is not None and age in ages:
+                j, other = ages[age]
+                # Two surfaces at one age are one time line: their slices would be the
+                # same map, and a rate between them would divide by zero.
+                self.err(
+                    (*path, "age"),
+                    table["age"],
+                    f"is also the age of surface {other!r} (surface {j + 1})",
+                    "surfaces at one age are one time line: pick them under one name, or "
+                    "correct the age",
+                )
+                ok = False
+                continue
             if name is None or age is None:
                 ok = False
                 continue
             seen[name] = i
+            ages[age] = (i, name)
             out.append(Surface(name, age, age_sd or 0.0, erosional, self.locate.line_of(path)))
         return tuple(out) if ok else None
 
@@ -965,6 +986,7 @@ class _ConfigReader:
             "seed": self.number(table, p, "seed", minimum=0, integer=True),
             "deterministic": self.boolean(table, p, "deterministic"),
             "neighbours": self.number(table, p, "neighbours", minimum=3, integer=True),
+            "joint": self.boolean(table, p, "joint"),
         }
         return replace(d, **{k: v for k, v in values.items() if v is not None})
 

@@ -13,8 +13,9 @@ from .report_table import pair_table_lines
 __all__ = ["command", "run_build"]
 
 
-def run_build(project_path: Path, out: Path, *, overwrite: bool, figures: bool = True,
-              quiet: bool = False) -> None:
+def run_build(
+    project_path: Path, out: Path, *, overwrite: bool, figures: bool = True, quiet: bool = False
+) -> None:
     """Build ``project_path`` into ``out`` and print what was made (shared with ``demo``)."""
     project = load_project(project_path)
     result = build(project, out, overwrite=overwrite, figures=figures)
@@ -29,13 +30,20 @@ def run_build(project_path: Path, out: Path, *, overwrite: bool, figures: bool =
 
 @click.command("build")
 @click.argument("project", type=click.Path(path_type=Path, dir_okay=False))
-@click.option("--out", "-o", "out", required=True, type=click.Path(path_type=Path),
-              help="Build folder to write (refused if it exists, unless --overwrite).")
+@click.option(
+    "--out",
+    "-o",
+    "out",
+    required=True,
+    type=click.Path(path_type=Path),
+    help="Build folder to write (refused if it exists, unless --overwrite).",
+)
 @click.option("--overwrite", is_flag=True, help="Replace an existing build folder.")
 @click.option("--no-figures", is_flag=True, help="Skip the figures and the report (faster).")
 @click.pass_context
-def command(ctx: click.Context, project: Path, out: Path, overwrite: bool,
-            no_figures: bool) -> None:
+def command(
+    ctx: click.Context, project: Path, out: Path, overwrite: bool, no_figures: bool
+) -> None:
     """Map every time slice of PROJECT and write the build folder.
 
     Writes paleomap.gpkg, rasters/, rates.csv, figures/ and report.html into OUT. The
@@ -46,5 +54,6 @@ def command(ctx: click.Context, project: Path, out: Path, overwrite: bool,
     Example:
       paleomap build basin/project.toml --out basin/build
     """
-    run_build(project, out, overwrite=overwrite, figures=not no_figures,
-              quiet=ctx.obj.get("quiet", False))
+    run_build(
+        project, out, overwrite=overwrite, figures=not no_figures, quiet=ctx.obj.get("quiet", False)
+    )

@@ -14,8 +14,10 @@ __all__ = ["command", "demo_project_path"]
 def demo_project_path() -> Path:
     """The bundled demo region's project file (in the source tree, beside the package)."""
     package = Path(__file__).resolve().parents[1]
-    for here in (package.parent / "demo_region" / "project.toml",  # source tree
-                 package / "_demo_region" / "project.toml"):  # installed wheel
+    for here in (
+        package.parent / "demo_region" / "project.toml",  # source tree
+        package / "_demo_region" / "project.toml",
+    ):  # installed wheel
         if here.exists():
             return here
     from ..errors import PaleomapError
@@ -24,10 +26,20 @@ def demo_project_path() -> Path:
 
 
 @click.command("demo")
-@click.option("--out", "-o", "out", default=Path("demo_build"), show_default=True,
-              type=click.Path(path_type=Path), help="Build folder to write.")
-@click.option("--keep", is_flag=True,
-              help="Refuse to replace an earlier demo build (by default it is replaced).")
+@click.option(
+    "--out",
+    "-o",
+    "out",
+    default=Path("demo_build"),
+    show_default=True,
+    type=click.Path(path_type=Path),
+    help="Build folder to write.",
+)
+@click.option(
+    "--keep",
+    is_flag=True,
+    help="Refuse to replace an earlier demo build (by default it is replaced).",
+)
 @click.pass_context
 def command(ctx: click.Context, out: Path, keep: bool) -> None:
     """Build the bundled demo region (an invented shelf) into OUT.

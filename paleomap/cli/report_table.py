@@ -17,9 +17,11 @@ def pair_table_lines(result) -> list[str]:
     if not len(pairs):
         return ["No slice pairs (one slice only)."]
     unit = result.project.age_unit
-    head = (f"{'older':>12} {'younger':>12} {'ages (' + unit + ')':>16} "
-            f"{'median m/kyr':>13} {'net shift m':>12} {'flooded km2':>12} "
-            f"{'exposed km2':>12}  sense")
+    head = (
+        f"{'older':>12} {'younger':>12} {'ages (' + unit + ')':>16} "
+        f"{'median m/kyr':>13} {'net shift m':>12} {'flooded km2':>12} "
+        f"{'exposed km2':>12}  sense"
+    )
     lines = ["Shoreline shifts between consecutive slices (positive = landward):", head]
     for r in pairs.itertuples():
         ages = f"{r.older_age:g}-{r.younger_age:g}"

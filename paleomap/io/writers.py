@@ -48,8 +48,9 @@ def raster_names(slice_name: str) -> dict[str, str]:
     }
 
 
-def write_deliverables(result: BuildResult, folder: Path, *, figures: bool = True,
-                       report: bool = True) -> None:
+def write_deliverables(
+    result: BuildResult, folder: Path, *, figures: bool = True, report: bool = True
+) -> None:
     """Write every deliverable of ``result`` into ``folder``."""
     from ..layers import GEOMETRY_TYPES, build_layers
 
@@ -60,9 +61,13 @@ def write_deliverables(result: BuildResult, folder: Path, *, figures: bool = Tru
     styles = layer_styles(belt_categories(scheme))
     styles = {k: v for k, v in styles.items() if k in layers}
     log.info("writing %s", GPKG_NAME)
-    write_layers(folder / GPKG_NAME, layers, styles=styles,
-                 metadata={k: v for k, v in result.run_info.items() if k != "project_text"},
-                 geometry_types={k: v for k, v in GEOMETRY_TYPES.items() if k in layers})
+    write_layers(
+        folder / GPKG_NAME,
+        layers,
+        styles=styles,
+        metadata={k: v for k, v in result.run_info.items() if k != "project_text"},
+        geometry_types={k: v for k, v in GEOMETRY_TYPES.items() if k in layers},
+    )
     _write_rasters(result, folder / "rasters")
     shifts = layers["shoreline_shifts"].drop(columns="geometry")
     atomic_write_text(folder / "rates.csv", shifts.to_csv(index=False, float_format="%.6g"))
@@ -88,11 +93,32 @@ def _write_rasters(result: BuildResult, folder: Path) -> None:
         files = raster_names(m.slice.name)
         tags = {"slice": m.slice.name, "age": m.slice.age, "age_unit": result.project.age_unit}
         belt = np.where(mask, m.mapped_belt(), 255).astype(np.uint8)
-        write_class_raster(folder / files["belt"], belt, grid.transform, crs, scheme.colors,
-                           names, nodata=255, description="mapped belt (rank)", tags=tags)
+        write_class_raster(
+            folder / files["belt"],
+            belt,
+            grid.transform,
+            crs,
+            scheme.colors,
+            names,
+            nodata=255,
+            description="mapped belt (rank)",
+            tags=tags,
+        )
         probs = np.where(mask[None], m.probabilities, np.nan).astype(np.float32)
-        write_float_raster(folder / files["probabilities"], probs, grid.transform, crs,
-                           [f"P({n})" for n in names], tags=tags)
+        write_float_raster(
+            folder / files["probabilities"],
+            probs,
+            grid.transform,
+            crs,
+            [f"P({n})" for n in names],
+            tags=tags,
+        )
         distal = np.where(mask, m.distal_probability, np.nan).astype(np.float32)
-        write_float_raster(folder / files["distal"], distal, grid.transform, crs,
-                           [f"P(distal of {scheme.boundary_name(b)})"], tags=tags)
+        write_float_raster(
+            folder / files["distal"],
+            distal,
+            grid.transform,
+            crs,
+            [f"P(distal of {scheme.boundary_name(b)})"],
+            tags=tags,
+        )
