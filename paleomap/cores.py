@@ -187,7 +187,8 @@ def build_cores(
     Errors: empty or duplicate core id; a position, depth or number that is not finite;
     a negative depth; ``top >= base``; overlapping intervals; an unknown facies; a core
     in ``intervals`` or ``picks`` but not in ``cores``; an unknown surface; a surface
-    picked twice in one core; a pick outside its core's logged range; picks whose depth
+    picked twice in one core; two cores at one position; a pick outside its core's
+    logged range; picks whose depth
     order contradicts their surfaces' ages (a deeper pick must be older; two surfaces at
     one depth need the younger one to be erosional). Warnings: gaps between intervals
     (no recovery); a core with no intervals.
@@ -263,6 +264,46 @@ def build_cores(
             "northing": float(northing) if ok else float("nan"),
             "elevation": elevation,
         }
+
+    # Two cores at one position cannot both constrain the map (the field would have two
+    # values at one point); an exact copy of a position is most often a pasting slip.
+    # "One position" is within a millionth of the cores' extent (floating-point noise of
+    # a reprojection), as the mapping engine reads it.
+    placed = [(cid, info["easting"], info["northing"]) for cid, info in known.items() if info["ok"]]
+    extent = 0.0
+    if placed:
+        pos = np.array([(e, n) for _, e, n in placed])
+        extent = float(np.ptp(pos, axis=0).max())
+    # Capped so that one absurd coordinate (reported later) does not merge all the others.
+    tol = 1e-6 * min(max(1.0, extent), 1e7)
+    at: dict[tuple[int, int], str] = {}
+    for cid, e, n in placed:
+        info = known[cid]
+        cell = (int(np.floor(e / tol)), int(np.floor(n / tol)))
+        near = [
+            at[(cell[0] + i, cell[1] + j)]
+            for i in (-1, 0, 1)
+            for j in (-1, 0, 1)
+            if (cell[0] + i, cell[1] + j) in at
+        ]
+        near = [
+            o for o in near if np.hypot(known[o]["easting"] - e, known[o]["northing"] - n) <= tol
+        ]
+        if near:
+            first = near[0]
+            log.error(
+                f_cores,
+                info["line"],
+                "x",
+                (info["x"], info["y"]),
+                f"core {cid!r} is at the same position as core {first!r} "
+                f"(line {known[first]['line']})",
+                "two cores at one point cannot both be mapped: merge their logs into one "
+                "core or correct the coordinates",
+            )
+            info["ok"] = False
+        else:
+            at[cell] = cid
 
     # -- intervals -------------------------------------------------------------------------
     by_core: dict[str, list[Interval]] = {cid: [] for cid in known}

@@ -206,7 +206,18 @@ def load_project(path: str | os.PathLike) -> Project:
             )
 
     if not log.has_errors and not cores:
-        log.error(cfg.cores, 1, None, None, "lists no core", "add at least one core")
+        log.error(cfg.cores, 1, None, None, "lists no core", "add at least two cores")
+    elif not log.has_errors and len(cores) == 1:
+        # One point fixes no direction and no distance: there is nothing to map.
+        log.error(
+            cfg.cores,
+            cores[0].line or 1,
+            "core_id",
+            cores[0].core_id,
+            "is the only core",
+            "a map needs at least two cores with a record at a slice (three or more to fit "
+            "a trend)",
+        )
     if not log.has_errors:
         _check_grid_size(cores, grid, area, shown, TomlLocator(text), log)
     log.raise_if_errors()
@@ -718,7 +729,8 @@ def _check_grid_size(cores, grid, area, shown: str, locate: TomlLocator, log) ->
     width, height = maxx - minx, maxy - miny
     with np.errstate(over="ignore", invalid="ignore"):
         fit = float(np.ceil(np.sqrt(width * height / MAX_GRID_CELLS)))
-    if not (np.isfinite(fit) and fit > 0):
+    # Wider than the Earth is round: the coordinates are not metres of a real place.
+    if not (np.isfinite(fit) and fit > 0) or max(width, height) > _EARTH_CIRCUMFERENCE_M:
         log.error(
             shown,
             line,
@@ -740,6 +752,9 @@ def _check_grid_size(cores, grid, area, shown: str, locate: TomlLocator, log) ->
         f"{MAX_GRID_CELLS:,} paleomap allocates",
         f"use cell_size = {fit:.0f} or larger",
     )
+
+
+_EARTH_CIRCUMFERENCE_M = 40_075_017.0  # equatorial, WGS 84 (common practice)
 
 
 def _count(value: float) -> str:
