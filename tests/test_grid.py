@@ -64,5 +64,5 @@ def test_degenerate_core_layouts_still_give_an_area(e, n):
 
 def test_too_large_grid_is_refused_with_a_cell_size_that_fits():
     e, n = _square_cores(size=100_000.0)
-    with pytest.raises(InputError, match=r"grid\.cell_size.*use cell_size = 100 or larger"):
+    with pytest.raises(InputError, match=r"grid\.cell_size.*[Uu]se cell_size = 100 or larger"):
         make_grid(e, n, cell_size=1.0, margin=0.0, max_cells=1_000_000)
