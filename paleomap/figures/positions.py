@@ -199,6 +199,9 @@ def shoreline_positions(result: BuildResult, transects=None, axes=None) -> np.nd
             flat = list(grid.ravel())
             for extra in flat[len(ids) :]:
                 extra.set_visible(False)
+            for i in range(max(len(ids) - cols, 0), len(ids)):
+                # the lowest panel of each column carries the age labels
+                flat[i].xaxis.set_tick_params(labelbottom=True)
             axes = flat[: len(ids)]
             fig.supxlabel(f"Slice age ({unit}), youngest on the right", fontsize=8, y=0.02)
             fig.supylabel(
