@@ -62,7 +62,7 @@ def polygon_path(geom):
     Examples
     --------
     >>> import shapely
-    >>> polygon_path(shapely.box(0, 0, 2, 1)).get_extents().width
+    >>> float(polygon_path(shapely.box(0, 0, 2, 1)).get_extents().width)
     2.0
     """
     from matplotlib.path import Path
