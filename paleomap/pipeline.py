@@ -466,6 +466,38 @@ def _positions(project: Project, grid: Grid, maps: list[SliceMap], b: int):
     )
 
 
+_SHIFT_COLUMNS = [
+    "transect",
+    "older_slice",
+    "younger_slice",
+    "older_age",
+    "younger_age",
+    "shift_m",
+    "shift_low_m",
+    "shift_high_m",
+    "rate_m_per_kyr",
+    "rate_low",
+    "rate_high",
+    "sense",
+    "older_crossings",
+    "younger_crossings",
+    "geometry",
+]
+_PAIR_COLUMNS = [
+    "older_slice",
+    "younger_slice",
+    "older_age",
+    "younger_age",
+    "flooded_km2",
+    "exposed_km2",
+    "net_shift_m",
+    "net_rate_m_per_kyr",
+    "median_rate_m_per_kyr",
+    "transects_used",
+    "sense",
+]
+
+
 def _ordered_pairs(maps: list[SliceMap]):
     """Consecutive (older, younger) slice pairs, oldest first."""
     by_age = sorted(maps, key=lambda m: -m.slice.age)
@@ -540,8 +572,8 @@ def _shifts(project: Project, maps, transects, positions):
                 sense=classify_sense([median], tol)[0],
             )
         )
-    shifts = pd.DataFrame(rows)
-    pairs = pd.DataFrame(pair_rows)
+    shifts = pd.DataFrame(rows, columns=_SHIFT_COLUMNS)
+    pairs = pd.DataFrame(pair_rows, columns=_PAIR_COLUMNS)
     # least-squares rate per transect over every slice
     out = []
     for tr in transects:
