@@ -460,7 +460,7 @@ def _crs_problem(crs: pyproj.CRS) -> tuple[str, str] | None:
         return None
     if not horizontal.is_projected:
         return (
-            f"is a {crs.type_name} CRS, neither geographic nor projected",
+            f"is a {crs.type_name.removesuffix(' CRS')} CRS, neither geographic nor projected",
             "give a projected CRS in metres or a geographic CRS",
         )
     units = {a.unit_name for a in horizontal.axis_info}
