@@ -79,14 +79,16 @@ def regional_dip_azimuth(latent_grids, grid) -> float:
 
 
 def _nice(x: float) -> float:
-    """Round down to 1, 2, 2.5 or 5 times a power of ten."""
+    """The nearest (in ratio) of 1, 2, 2.5 and 5 times a power of ten.
+
+    >>> _nice(4700.0), _nice(3100.0)
+    (5000.0, 2500.0)
+    """
     if x <= 0:
         return x
     p = 10 ** np.floor(np.log10(x))
-    for m in (5, 2.5, 2, 1):
-        if x >= m * p:
-            return float(m * p)
-    return float(p)
+    options = np.array([1.0, 2.0, 2.5, 5.0, 10.0]) * p
+    return float(options[np.argmin(np.abs(np.log(options / x)))])
 
 
 def default_transects(

@@ -1,0 +1,191 @@
+"""End-to-end build of the demo region: every layer and raster read back.
+
+Checks against outside standards name their source: OGC 12-128r19 (GeoPackage 1.4.0)
+requirements as quoted in shared/REFERENCES.md, Walther (1894) restated by Middleton
+(1973) for the map's belt order.
+"""
+
+from __future__ import annotations
+
+import sqlite3
+
+import geopandas as gpd
+import numpy as np
+import pandas as pd
+import pyogrio
+import pytest
+import rasterio
+import shapely
+
+from paleomap.belts import walther_contacts
+from paleomap.io.readers import load_project
+from paleomap.io.writers import GPKG_NAME, raster_names
+from paleomap.pipeline import compute, write_build
+
+DEMO = "demo_region/project.toml"
+
+FEATURE_LAYERS = {
+    "cores": "POINT",
+    "core_slices": "POINT",
+    "core_contacts": "POINT",
+    "facies_belts": "MULTIPOLYGON",
+    "shorelines": "MULTILINESTRING",
+    "shoreline_bands": "MULTIPOLYGON",
+    "transects": "LINESTRING",
+    "shoreline_shifts": "LINESTRING",
+}
+TABLES = ("slice_pairs", "slice_quality", "run_info", "shoreline_positions")
+
+
+@pytest.fixture(scope="module")
+def demo(tmp_path_factory):
+    project = load_project(DEMO)
+    result = compute(project)
+    out = tmp_path_factory.mktemp("demo") / "build"
+    write_build(result, out, figures=False, report=False)
+    return project, result, out
+
+
+def test_geopackage_has_every_layer_with_the_working_crs(demo):
+    project, result, out = demo
+    layers = dict(pyogrio.list_layers(out / GPKG_NAME))
+    for name in FEATURE_LAYERS:
+        assert name in layers, name
+        info = pyogrio.read_info(out / GPKG_NAME, layer=name)
+        assert pyogrio.read_info(out / GPKG_NAME, layer=name)["crs"] is not None
+        gdf = gpd.read_file(out / GPKG_NAME, layer=name)
+        assert gdf.crs == project.working_crs
+        # shifts on transects that miss the shoreline at a slice have no geometry
+        present = gdf.geometry.notna()
+        assert bool(gdf.geometry[present].is_valid.all()), name
+        assert present.any(), name
+        assert info["features"] == len(gdf)
+    for name in TABLES:
+        assert name in layers
+
+
+def test_geopackage_meets_ogc_requirements(demo):
+    # OGC 12-128r19 requirement 2 (application_id, user_version), 6 and 7 (integrity,
+    # foreign keys), gpkg_contents and gpkg_geometry_columns rules (REFERENCES.md).
+    _, _, out = demo
+    con = sqlite3.connect(out / GPKG_NAME)
+    try:
+        assert con.execute("PRAGMA application_id").fetchone()[0] == 0x47504B47
+        assert con.execute("PRAGMA user_version").fetchone()[0] in (10200, 10300, 10400)
+        assert con.execute("PRAGMA integrity_check").fetchone()[0] == "ok"
+        assert con.execute("PRAGMA foreign_key_check").fetchall() == []
+        srs = {r[0] for r in con.execute("SELECT srs_id FROM gpkg_spatial_ref_sys")}
+        assert {4326, -1, 0} <= srs
+        contents = dict(con.execute("SELECT table_name, data_type FROM gpkg_contents"))
+        geom = {r[0]: (r[1], r[2]) for r in con.execute(
+            "SELECT table_name, geometry_type_name, srs_id FROM gpkg_geometry_columns")}
+        c_srs = dict(con.execute("SELECT table_name, srs_id FROM gpkg_contents"))
+    finally:
+        con.close()
+    for name, gtype in FEATURE_LAYERS.items():
+        assert contents[name] == "features"
+        assert geom[name][0] == gtype
+        assert geom[name][1] == c_srs[name]
+    for name in TABLES:
+        assert contents[name] == "attributes"
+
+
+def test_layers_carry_slice_and_age(demo):
+    _, result, out = demo
+    names = {m.slice.name for m in result.slice_maps}
+    for layer in ("core_slices", "facies_belts", "shorelines", "shoreline_bands"):
+        gdf = gpd.read_file(out / GPKG_NAME, layer=layer)
+        assert {"slice", "age"} <= set(gdf.columns), layer
+        assert set(gdf["slice"]) == names, layer
+    belts = gpd.read_file(out / GPKG_NAME, layer="facies_belts")
+    assert {"belt", "rank", "marine", "area_km2"} <= set(belts.columns)
+    shifts = gpd.read_file(out / GPKG_NAME, layer="shoreline_shifts")
+    for col in ("transect", "older_slice", "younger_slice", "older_age", "younger_age",
+                "shift_m", "shift_low_m", "shift_high_m", "rate_m_per_kyr", "rate_low",
+                "rate_high", "sense"):
+        assert col in shifts.columns, col
+
+
+def test_every_core_lies_in_the_belt_it_logs(demo):
+    project, result, _ = demo
+    for m in result.slice_maps:
+        s = result.samples[result.samples["slice"] == m.slice.name]
+        for rank, geom in enumerate(m.polygons):
+            rows = s[s["rank"] == rank]
+            if len(rows):
+                assert shapely.contains_xy(geom, rows["easting"], rows["northing"]).all(), (
+                    m.slice.name, rank)
+
+
+def test_belts_that_are_not_neighbours_never_touch(demo):
+    # Walther (1894), restated by Middleton (1973).
+    _, result, _ = demo
+    for m in result.slice_maps:
+        assert walther_contacts(m.polygons) == [], m.slice.name
+        assert m.quality["walther_ok"]
+
+
+def test_belt_areas_partition_the_mapped_area(demo):
+    _, result, out = demo
+    belts = gpd.read_file(out / GPKG_NAME, layer="facies_belts")
+    for name, group in belts.groupby("slice"):
+        assert group["area_km2"].sum() == pytest.approx(result.grid.area.area / 1e6, rel=1e-6)
+
+
+def test_rasters_read_back_with_crs_transform_nodata_and_colours(demo):
+    project, result, out = demo
+    scheme = project.scheme
+    for m in result.slice_maps:
+        files = raster_names(m.slice.name)
+        with rasterio.open(out / "rasters" / files["belt"]) as src:
+            assert src.dtypes[0] == "uint8"
+            assert src.nodata == 255
+            assert src.crs is not None
+            assert src.transform == result.grid.transform
+            cmap = src.colormap(1)
+            for k, color in enumerate(scheme.colors):
+                assert "#%02x%02x%02x" % cmap[k][:3] == color
+            data = src.read(1)
+            assert np.all(data[~result.grid.mask] == 255)
+            assert set(np.unique(data[result.grid.mask])) <= set(range(scheme.n_belts))
+        with rasterio.open(out / "rasters" / files["probabilities"]) as src:
+            assert src.count == scheme.n_belts
+            assert src.dtypes[0] == "float32"
+            assert list(src.descriptions) == [f"P({b})" for b in scheme.ids]
+            p = src.read()
+            inside = result.grid.mask
+            assert np.allclose(p[:, inside].sum(axis=0), 1.0, atol=1e-4)
+            assert np.all(np.isnan(p[:, ~inside]))
+        with rasterio.open(out / "rasters" / files["distal"]) as src:
+            d = src.read(1)
+            assert np.nanmin(d) >= 0 and np.nanmax(d) <= 1
+
+
+def test_rates_csv_equals_the_shift_layer(demo):
+    _, _, out = demo
+    csv = pd.read_csv(out / "rates.csv")
+    layer = gpd.read_file(out / GPKG_NAME, layer="shoreline_shifts")
+    assert len(csv) == len(layer)
+    assert np.allclose(csv["rate_m_per_kyr"], layer["rate_m_per_kyr"], rtol=1e-5,
+                       equal_nan=True)
+
+
+def test_run_info_records_version_project_and_checksums(demo):
+    project, _, out = demo
+    info = dict(pyogrio.read_dataframe(out / GPKG_NAME, layer="run_info")[["key", "value"]]
+                .itertuples(index=False))
+    assert "paleomap_version" in info
+    assert info["project_text"] == project.config_text
+    assert "cores.csv" in info["input_sha256"]
+
+
+def test_demo_senses_follow_the_synthetic_truth(demo):
+    # The demo is a forward-modelled basin: its true shifts are in true_shifts.csv.
+    _, result, _ = demo
+    truth = pd.read_csv("demo_region/true_shifts.csv")
+    mean = truth[truth["transect"] == "mean"] if "transect" in truth.columns else truth
+    for r in result.slice_pairs.itertuples():
+        t = mean[(mean["older_slice"] == r.older_slice) & (mean["younger_slice"] ==
+                                                           r.younger_slice)]
+        assert len(t) == 1
+        assert r.sense == t["sense"].iloc[0]
