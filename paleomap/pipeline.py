@@ -26,7 +26,7 @@ import shapely
 from ._version import __version__
 from .agemodel import build_age_models, sample_slices
 from .belts import belt_polygons, classify, honour_cores, node_field, walther_contacts
-from .errors import PaleomapWarning
+from .errors import InputError, PaleomapWarning, Problem
 from .grid import Grid, make_grid
 from .migration import (
     area_change,
@@ -165,6 +165,12 @@ def compute(project: Project) -> BuildResult:
         )
     with sw.stage("field"):
         fields = _map_fields(project, samples, grid)
+    if not fields:
+        raise InputError([Problem(
+            project.path.name, None, "slices", [s.name for s in project.slices],
+            "no slice has a record in two or more cores, so nothing can be mapped",
+            "check that the picks bracket the slice ages (paleomap check lists the cores "
+            "with a record at each slice)")])
     b = scheme.tracked_boundary
     maps: list[SliceMap] = []
     with sw.stage("belts"):

@@ -332,7 +332,7 @@ def _validate_slices(easting, northing, ranks_by_slice, n_belts):
         raise ValueError(f"n_belts must be an integer >= 2 (got {n_belts!r})")
     pts = np.column_stack([e, n])
     if e.size > 1:
-        pairs = cKDTree(pts).query_pairs(r=1e-6 * max(1.0, float(np.ptp(pts))))
+        pairs = cKDTree(pts).query_pairs(r=1e-6 * max(1.0, float(np.ptp(pts, axis=0).max())))
         if pairs:
             i, j = sorted(pairs)[0]
             raise ValueError(
