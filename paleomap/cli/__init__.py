@@ -104,7 +104,7 @@ def _register() -> None:
     # Each command module adds itself here; imported lazily so `paleomap --help` stays quick.
     import importlib
 
-    for name in ("check", "build", "demo", "synth"):
+    for name in ("check", "build", "demo", "synth", "versions"):
         try:
             module = importlib.import_module(f".{name}", __name__)
         except ModuleNotFoundError as exc:
