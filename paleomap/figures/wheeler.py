@@ -12,11 +12,12 @@ How the chart is computed (:func:`wheeler_section`):
 * **Ages**: ``n_ages`` ages evenly spread from the youngest to the oldest surface (not
   only the surfaces), each read in every core through its age model
   (:func:`paleomap.agemodel.sample_slices`; at a surface's own age, at its pick).
-* **Belts along the line**: for each age, the ordinal field of the cores that record it
-  (:func:`paleomap.field.map_slices`, deterministic latent means, one covariance fitted
-  to all the chart's ages) is kriged only at points along the transect, one cell size
-  apart, which is cheap; each point takes the belt of its mean latent. An age that all
-  its cores log in one belt is that belt along the whole line.
+* **Belts along the line**: every charted age is mapped with the build's own model —
+  by default the joint model with a shared relief (:func:`paleomap.field.shared.map_shared`,
+  all charted ages at once, 40 samples), else the per-slice ordinal field
+  (:func:`paleomap.field.map_slices`, deterministic latent means) — kriged only at
+  points along the transect, one cell size apart, which is cheap; each point takes the
+  belt of its mean latent.
 * **No record**: a point has no record at an age where fewer than :data:`MIN_CORES`
   cores record that age at all, or where fewer than half of its nearby cores record it
   (the cores within one mean core spacing of the point, or the three nearest when none
@@ -39,7 +40,7 @@ Examples
 from __future__ import annotations
 
 import logging
-from dataclasses import dataclass
+from dataclasses import dataclass, replace
 from typing import TYPE_CHECKING
 
 import numpy as np
@@ -251,7 +252,23 @@ def wheeler_section(
             uniform[j] = int(r[0])
         else:
             by_slice[j] = (idx, r)
-    if by_slice:
+    if project.mapping.joint and (by_slice or uniform):
+        # The same joint model as the slice maps, over every charted age at once, so
+        # the chart and the maps tell one story.
+        from ..field.shared import map_shared
+        from ..pipeline import field_settings
+
+        every = dict(by_slice)
+        for j in uniform:
+            rows = groups.get_group(slices[j].name)
+            every[j] = (np.array([index[c] for c in rows["core_id"]]),
+                        rows["rank"].to_numpy(int))
+        settings = replace(field_settings(project), samples=40, burn_in=60)
+        fields, _fit = map_shared(ce, cn, every, xy[:, 0], xy[:, 1], n_belts, settings)
+        for j, fr in fields.items():
+            ranks[j] = belt_of(fr.latent_mean, fr.thresholds)
+        uniform = {}
+    elif by_slice:
         fields, _fit = map_slices(
             ce, cn, by_slice, xy[:, 0], xy[:, 1], n_belts, _field_settings(project.mapping)
         )
