@@ -480,5 +480,5 @@ def write_report(result: BuildResult, folder: str | Path) -> Path:
     folder = Path(folder)
     path = folder / REPORT_NAME
     atomic_write_text(path, render_report(result, folder))
-    log.info("wrote %s", path)
+    log.info("wrote %s", path.name)
     return path

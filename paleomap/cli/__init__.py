@@ -70,12 +70,30 @@ class _ProgressHandler(logging.Handler):
             self.handleError(record)
 
 
+# Loggers whose INFO records are progress a user wants to see by default; the rest of
+# the library's INFO records (each file written, fitted parameters) show with -v.
+_PROGRESS_LOGGERS = ("paleomap.pipeline", "paleomap.io.writers", "paleomap.figures.all",
+                     "paleomap.report")
+
+
+class _ProgressFilter(logging.Filter):
+    def __init__(self, verbose: int) -> None:
+        super().__init__()
+        self.verbose = verbose
+
+    def filter(self, record: logging.LogRecord) -> bool:
+        if record.levelno >= logging.WARNING or self.verbose:
+            return True
+        return record.name in _PROGRESS_LOGGERS
+
+
 def _setup_logging(verbose: int, quiet: bool) -> None:
-    level = logging.WARNING if quiet else (logging.DEBUG if verbose else logging.INFO)
+    level = logging.WARNING if quiet else (logging.DEBUG if verbose > 1 else logging.INFO)
     logger = logging.getLogger("paleomap")
     logger.handlers[:] = []
     handler = _ProgressHandler()
     handler.setFormatter(logging.Formatter("%(message)s"))
+    handler.addFilter(_ProgressFilter(verbose))
     logger.addHandler(handler)
     logger.setLevel(level)
     logger.propagate = False
@@ -83,7 +101,8 @@ def _setup_logging(verbose: int, quiet: bool) -> None:
 
 @click.group(cls=_Group, context_settings={"help_option_names": ["-h", "--help"]})
 @click.version_option(__version__, "--version", prog_name="paleomap")
-@click.option("-v", "--verbose", count=True, help="More detail in the progress messages.")
+@click.option("-v", "--verbose", count=True,
+              help="More detail in the progress messages (-vv for debugging).")
 @click.option("-q", "--quiet", is_flag=True, help="Only warnings and errors.")
 @click.pass_context
 def main(ctx: click.Context, verbose: int, quiet: bool) -> None:
