@@ -43,6 +43,7 @@ __all__ = [
     "lsq_rate",
     "regional_dip_azimuth",
     "shift_statistics",
+    "strike_extent",
     "transect_position",
 ]
 
@@ -288,17 +289,40 @@ def classify_sense(rates, tolerance: float) -> list[str]:
     return out
 
 
+def strike_extent(line, dip_azimuth_deg: float) -> float:
+    """Extent (m) of a line along strike: the span of its projection on the strike axis."""
+    xy = shapely.get_coordinates(line)
+    if len(xy) < 2:
+        return 0.0
+    a = np.radians(dip_azimuth_deg)
+    strike = np.array([np.cos(a), -np.sin(a)])  # perpendicular to (sin a, cos a)
+    s = xy @ strike
+    return float(s.max() - s.min())
+
+
 def area_change(
-    distal_older, distal_younger, length_older_m: float, length_younger_m: float
+    distal_older,
+    distal_younger,
+    length_older_m: float,
+    length_younger_m: float,
+    extent_older_m: float | None = None,
+    extent_younger_m: float | None = None,
 ) -> dict:
     """Areas flooded and exposed between two slices, and the net shift they imply.
 
     Flooded: on the distal side at the younger slice but not at the older; exposed: the
     reverse. The net shift is (flooded − exposed) / mean boundary length, positive
-    landward: an estimate independent of the transects.
+    landward: the mean displacement normal to the boundary, an estimate independent
+    of the transects. A sinuous boundary is longer than it is wide, so this is smaller
+    than the shift along dip; dividing by the boundary's mean extent along strike
+    instead gives the dip-equivalent ``net_dip_shift_m``, comparable with the transects.
     """
     flooded = shapely.difference(distal_younger, distal_older).area
     exposed = shapely.difference(distal_older, distal_younger).area
     mean_len = (length_older_m + length_younger_m) / 2
     net = (flooded - exposed) / mean_len if mean_len > 0 else np.nan
-    return dict(flooded_km2=flooded / 1e6, exposed_km2=exposed / 1e6, net_shift_m=float(net))
+    out = dict(flooded_km2=flooded / 1e6, exposed_km2=exposed / 1e6, net_shift_m=float(net))
+    if extent_older_m is not None and extent_younger_m is not None:
+        ext = (extent_older_m + extent_younger_m) / 2
+        out["net_dip_shift_m"] = float((flooded - exposed) / ext) if ext > 0 else np.nan
+    return out

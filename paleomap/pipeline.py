@@ -35,6 +35,7 @@ from .migration import (
     lsq_rate,
     regional_dip_azimuth,
     shift_statistics,
+    strike_extent,
     transect_position,
 )
 from .project import Project, Slice
@@ -166,11 +167,19 @@ def compute(project: Project) -> BuildResult:
     with sw.stage("field"):
         fields = _map_fields(project, samples, grid)
     if not fields:
-        raise InputError([Problem(
-            project.path.name, None, "slices", [s.name for s in project.slices],
-            "no slice has a record in two or more cores, so nothing can be mapped",
-            "check that the picks bracket the slice ages (paleomap check lists the cores "
-            "with a record at each slice)")])
+        raise InputError(
+            [
+                Problem(
+                    project.path.name,
+                    None,
+                    "slices",
+                    [s.name for s in project.slices],
+                    "no slice has a record in two or more cores, so nothing can be mapped",
+                    "check that the picks bracket the slice ages (paleomap check lists the cores "
+                    "with a record at each slice)",
+                )
+            ]
+        )
     b = scheme.tracked_boundary
     maps: list[SliceMap] = []
     with sw.stage("belts"):
@@ -178,8 +187,9 @@ def compute(project: Project) -> BuildResult:
             log.info("belts: slice %s (%d of %d)", sl.name, i + 1, len(fields))
             maps.append(_slice_map(project, grid, sl, fr, b))
     with sw.stage("shorelines"):
-        transects, positions = _positions(project, grid, maps, b)
-        shifts, pairs, transects = _shifts(project, maps, transects, positions)
+        dip = regional_dip_azimuth([m.latent for m in maps], grid) if maps else 90.0
+        transects, positions = _positions(project, grid, maps, b, dip)
+        shifts, pairs, transects = _shifts(project, maps, transects, positions, dip)
     with sw.stage("core reading"):
         reading = _read_cores(project, age_models, pairs)
         if reading is not None and len(pairs):
@@ -429,7 +439,7 @@ def _slice_map(project: Project, grid: Grid, sl: Slice, fr, b: int) -> SliceMap:
 # ---------------------------------------------------------------------- migration
 
 
-def _positions(project: Project, grid: Grid, maps: list[SliceMap], b: int):
+def _positions(project: Project, grid: Grid, maps: list[SliceMap], b: int, dip: float):
     if project.transect_lines:
         transects = []
         for tid, line in project.transect_lines:
@@ -437,9 +447,8 @@ def _positions(project: Project, grid: Grid, maps: list[SliceMap], b: int):
             az = float(np.degrees(np.arctan2(x1 - x0, y1 - y0)) % 360.0)
             transects.append(Transect(str(tid), line, az, "user"))
     else:
-        az = regional_dip_azimuth([m.latent for m in maps], grid) if maps else 90.0
-        lines = default_transects(grid.area, az, project.migration.transect_spacing_m)
-        transects = [Transect(tid, line, az, "dip") for tid, line in lines]
+        lines = default_transects(grid.area, dip, project.migration.transect_spacing_m)
+        transects = [Transect(tid, line, dip, "dip") for tid, line in lines]
     rows = []
     step = grid.cell_size / 2
     for m in maps:
@@ -498,6 +507,8 @@ _PAIR_COLUMNS = [
     "exposed_km2",
     "net_shift_m",
     "net_rate_m_per_kyr",
+    "net_dip_shift_m",
+    "net_dip_rate_m_per_kyr",
     "median_rate_m_per_kyr",
     "transects_used",
     "sense",
@@ -510,7 +521,7 @@ def _ordered_pairs(maps: list[SliceMap]):
     return list(zip(by_age[:-1], by_age[1:], strict=False))
 
 
-def _shifts(project: Project, maps, transects, positions):
+def _shifts(project: Project, maps, transects, positions, dip: float):
     from .migration import TransectPosition
 
     kyr = project.kyr_per_age_unit
@@ -560,7 +571,14 @@ def _shifts(project: Project, maps, transects, positions):
                     geometry=geom,
                 )
             )
-        area = area_change(old.distal, young.distal, old.shoreline.length, young.shoreline.length)
+        area = area_change(
+            old.distal,
+            young.distal,
+            old.shoreline.length,
+            young.shoreline.length,
+            strike_extent(old.shoreline, dip),
+            strike_extent(young.shoreline, dip),
+        )
         dt = (old.slice.age - young.slice.age) * kyr
         rates = [r["rate_m_per_kyr"] for r in rows[-len(transects) :]] if transects else []
         rates = np.array([r for r in rates if np.isfinite(r)])
@@ -573,6 +591,7 @@ def _shifts(project: Project, maps, transects, positions):
                 younger_age=young.slice.age,
                 **area,
                 net_rate_m_per_kyr=area["net_shift_m"] / dt if dt > 0 else np.nan,
+                net_dip_rate_m_per_kyr=area["net_dip_shift_m"] / dt if dt > 0 else np.nan,
                 median_rate_m_per_kyr=median,
                 transects_used=int(rates.size),
                 sense=classify_sense([median], tol)[0],

@@ -189,3 +189,25 @@ def test_demo_senses_follow_the_synthetic_truth(demo):
                                                            r.younger_slice)]
         assert len(t) == 1
         assert r.sense == t["sense"].iloc[0]
+
+
+def test_area_and_transect_estimates_agree_on_a_sinuous_shoreline(demo):
+    # Two independent estimates of the same shift: the net area swept divided by the
+    # shoreline's extent along strike, and the median over the dip transects.
+    _, result, _ = demo
+    p = result.slice_pairs
+    assert np.allclose(p["net_dip_rate_m_per_kyr"], p["median_rate_m_per_kyr"], rtol=0.1)
+    # the normal (length-based) net shift is smaller where the shoreline is sinuous
+    assert (p["net_shift_m"].abs() <= p["net_dip_shift_m"].abs() + 1e-6).all()
+
+
+def test_core_reading_is_in_the_geopackage(demo):
+    _, result, out = demo
+    contacts = gpd.read_file(out / GPKG_NAME, layer="core_contacts")
+    assert {"core_id", "depth", "lower", "upper", "jump", "flag"} <= set(contacts.columns)
+    assert len(contacts) == len(result.reading.contacts)
+    cores = gpd.read_file(out / GPKG_NAME, layer="cores")
+    assert "trend" in " ".join(cores.columns)
+    pairs = pyogrio.read_dataframe(out / GPKG_NAME, layer="slice_pairs")
+    assert {"n_deepening", "n_shallowing", "agreement"} <= set(pairs.columns)
+    assert (pairs["agreement"] != "disagree").all()
