@@ -178,29 +178,8 @@ def build_layers(result: BuildResult) -> dict[str, pd.DataFrame]:
         ["transect", "azimuth_deg", "length_km", "source", "lsq_rate_m_per_kyr"],
         crs,
     )
-    shift_cols = [
-        "transect",
-        "older_slice",
-        "younger_slice",
-        "older_age",
-        "younger_age",
-        "shift_m",
-        "shift_low_m",
-        "shift_high_m",
-        "rate_m_per_kyr",
-        "rate_low",
-        "rate_high",
-        "sense",
-        "older_crossings",
-        "younger_crossings",
-    ]
-    shifts = gpd.GeoDataFrame(
-        result.shifts[[*shift_cols, "geometry"]].copy()
-        if len(result.shifts)
-        else pd.DataFrame(columns=[*shift_cols, "geometry"]),
-        geometry="geometry",
-        crs=crs,
-    )
+    # result.shifts has the layer's columns already (empty builds included)
+    shifts = gpd.GeoDataFrame(result.shifts.copy(), geometry="geometry", crs=crs)
 
     run_info = pd.DataFrame(
         [
