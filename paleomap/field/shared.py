@@ -65,6 +65,7 @@ True
 from __future__ import annotations
 
 import logging
+import os
 from collections.abc import Hashable, Mapping
 from dataclasses import dataclass, field
 
@@ -686,9 +687,11 @@ def _predict_direct(fit: SharedFit, e, n, te, tn):
 #   (points x samples) per slice.
 
 _FAST_BUDGET = 1e8  # points x samples x slices; below it the exact float64 path
-_LOCAL_CUTOFF = 1e-7
+_LOCAL_CUTOFF = 1e-5
 _SPREAD_TAIL = 1e-5
-_TILE_POINTS = 4096
+_TILE_POINTS = 1024
+_VARIANCE_TOL = 1e-6
+_THREADS = min(2, os.cpu_count() or 1)
 
 
 def _cross32(cov: Covariance, pe, pn, ce, cn, dtype):
@@ -703,25 +706,25 @@ def _cross32(cov: Covariance, pe, pn, ce, cn, dtype):
     u2 = (((ce - e0) * sa + (cn - n0) * ca) / a).astype(dtype)
     v2 = (((ce - e0) * ca - (cn - n0) * sa) / b).astype(dtype)
     r = np.subtract.outer(u1, u2)
-    r *= r
-    dv = np.subtract.outer(v1, v2)
-    dv *= dv
-    r += dv
-    del dv
+    np.square(r, out=r)
+    tmp = np.subtract.outer(v1, v2)
+    np.square(tmp, out=tmp)
+    r += tmp
     np.sqrt(r, out=r)
     if cov.model == "exponential":
-        r *= -3.0
+        r *= dtype(-3.0)
         np.exp(r, out=r)
     elif cov.model == "gaussian":
-        r *= r
-        r *= -3.0
+        np.square(r, out=r)
+        r *= dtype(-3.0)
         np.exp(r, out=r)
     elif cov.model == "matern32":
         from .covariance import _MATERN32_U95
 
-        r *= _MATERN32_U95
-        tmp = np.exp(-r)
-        r += 1.0
+        r *= dtype(_MATERN32_U95)
+        np.negative(r, out=tmp)
+        np.exp(tmp, out=tmp)
+        r += dtype(1.0)
         r *= tmp
     else:
         from .covariance import correlation
@@ -773,6 +776,50 @@ def _spread_basis(fit: SharedFit, n_samples: int):
     return v[:, : min(kept, n_samples)]
 
 
+def _variance_basis(cov: Covariance, e, n, te, tn):
+    """Weights ``W`` (n_cores, R) with kriging variance ``C0 - |k(x) W|²`` at any point.
+
+    From the eigenvectors of the cores' covariance, ``W = U Λ^(-1/2)``, largest
+    eigenvalues first; a component contributes about its eigenvalue to the variance
+    reduction, so the tail is dropped where it changes the variance at the cores and at
+    up to 2000 probe targets by less than ``_VARIANCE_TOL`` of the sill (all
+    components for rough covariances, few for smooth ones).
+    """
+    lam, u = np.linalg.eigh(cov.matrix(e, n))
+    lam, u = lam[::-1], u[:, ::-1]
+    pos = lam > 1e-13 * lam[0]
+    w = u[:, pos] / np.sqrt(lam[pos])
+    pick = np.random.default_rng(0).choice(te.size, min(2000, te.size), replace=False)
+    q = cov.cross(np.concatenate([e, te[pick]]), np.concatenate([n, tn[pick]]), e, n) @ w
+    tail = np.cumsum((q * q)[:, ::-1], axis=1)[:, ::-1]  # tail[:, i]: components i..
+    ok = np.all(tail <= _VARIANCE_TOL * cov.total_variance, axis=0)
+    kept = int(np.argmax(ok)) if ok.any() else w.shape[1]
+    return w[:, :kept]
+
+
+def _blas_thread_limiter():
+    """OpenBLAS's per-thread thread count setter, if numpy's BLAS has one (else None)."""
+    global _BLAS_LOCAL
+    if _BLAS_LOCAL is False:
+        import ctypes
+        import glob
+
+        _BLAS_LOCAL = None
+        libs = os.path.join(os.path.dirname(np.__file__), os.pardir, "numpy.libs")
+        for path in glob.glob(os.path.join(libs, "lib*openblas*.so*")):
+            try:
+                fn = ctypes.CDLL(path).openblas_set_num_threads_local
+            except (OSError, AttributeError):
+                continue
+            fn.argtypes, fn.restype = [ctypes.c_int], ctypes.c_int
+            _BLAS_LOCAL = fn
+            break
+    return _BLAS_LOCAL
+
+
+_BLAS_LOCAL = False
+
+
 def _predict_fast(fit: SharedFit, e, n, te, tn):
     t = fit.thresholds
     K = t.size + 1
@@ -785,15 +832,16 @@ def _predict_fast(fit: SharedFit, e, n, te, tn):
     # relief: [mean weights | inverse factor | spread weights] in one block
     Lr = _chol(fit.relief.matrix(e, n), fit.relief.total_variance)
     alpha_z = linalg.cho_solve((Lr, True), fit.relief_at_cores.T)  # (N, S)
-    Linv = linalg.solve_triangular(Lr, np.eye(e.size), lower=True)
+    Wv = _variance_basis(fit.relief, e, n, te, tn)
     Wz = np.hstack(
         [
             alpha_z.mean(axis=1, keepdims=True),
-            Linv.T,
+            Wv,
             (alpha_z - alpha_z.mean(1, keepdims=True)) @ V,
         ]
     ).astype(dt)
-    N = e.size
+    N = Wv.shape[1]
+    logger.info("relief variance in %d of %d components", N, e.size)
     # each set of cores of the slices' own residual: inverse, mean and spread weights
     groups: dict[tuple, list] = {}
     for k, sl in fit.slices.items():
@@ -803,62 +851,100 @@ def _predict_fast(fit: SharedFit, e, n, te, tn):
     for idx_t, ks in groups.items():
         idx = np.asarray(idx_t)
         Ll = _chol(fit.local.matrix(e[idx], n[idx]), fit.local.total_variance)
-        cinv = linalg.cho_solve((Ll, True), np.eye(idx.size))
-        means, devs = [], []
-        for k in ks:
+        # columns: [inverse (n_i) | mean weight per slice | spread weights per slice];
+        # three extra rows carry the slices' drifts, multiplied by F(x)
+        w = np.zeros((idx.size + 3, idx.size + len(ks) * (1 + r)))
+        w[: idx.size, : idx.size] = linalg.cho_solve((Ll, True), np.eye(idx.size))
+        for j, k in enumerate(ks):
             a = linalg.cho_solve((Ll, True), _residual_samples(fit, k, e, n).T)  # (n_i, S)
-            means.append(a.mean(axis=1))
-            devs.append((a - a.mean(axis=1, keepdims=True)) @ V)
-        gdata.append((idx, ks, cinv, np.column_stack(means), devs))
-    drift = {
-        k: (sl["drift"].mean(axis=0), V.T @ (sl["drift"] - sl["drift"].mean(axis=0)))
-        for k, sl in fit.slices.items()
-    }
-    out = {
-        k: dict(mean=np.empty(m_pts), sd=np.empty(m_pts), prob=np.empty((m_pts, K), np.float32))
-        for k in fit.slices
-    }
+            b = fit.slices[k]["drift"]
+            c = idx.size + j
+            w[: idx.size, c] = a.mean(axis=1)
+            w[idx.size :, c] = b.mean(axis=0)
+            c = idx.size + len(ks) + j * r
+            w[: idx.size, c : c + r] = (a - a.mean(axis=1, keepdims=True)) @ V
+            w[idx.size :, c : c + r] = (b - b.mean(axis=0)).T @ V
+        gdata.append((idx, ks, w.astype(dt)))
+    keys = list(fit.slices)
+    pos = {k: i for i, k in enumerate(keys)}
+    L = len(keys)
+    # outputs in tile order (contiguous writes), put back in point order at the end
+    mean_o = np.empty((L, m_pts), dt)
+    sd_o = np.empty((L, m_pts), dt)
+    prob_o = np.empty((L, m_pts, K), np.float32)
     order, bounds = _tiles(te, tn, fit.settings.chunk_size or _TILE_POINTS)
     z_var0 = fit.relief.total_variance
     l_var0 = fit.local.total_variance
-    inv_s = 1.0 / n_samples
-    for a0, a1 in zip(bounds[:-1], bounds[1:], strict=True):
+    inv_s = dt(1.0 / n_samples)
+    tt = t.astype(dt)
+
+    def tile(a0, a1):
         sel = order[a0:a1]
         pe, pn = te[sel], tn[sel]
-        F = _drift(pe, pn, fit.centre, fit.scale)
+        m = sel.size
+        F = _drift(pe, pn, fit.centre, fit.scale).astype(dt)
         g = _cross32(fit.relief, pe, pn, e, n, dt) @ Wz
-        zmean = g[:, 0].astype(float)
+        zmean = g[:, :1]
         q = g[:, 1 : N + 1]
-        var_z = np.maximum(z_var0 - np.einsum("ij,ij->i", q, q).astype(float), 0.0)
-        hz = g[:, N + 1 :]
-        lo_e, hi_e, lo_n, hi_n = pe.min() - cut, pe.max() + cut, pn.min() - cut, pn.max() + cut
-        for idx, ks, cinv, lmeans, devs in gdata:
-            near = np.flatnonzero(
-                (e[idx] >= lo_e) & (e[idx] <= hi_e) & (n[idx] >= lo_n) & (n[idx] <= hi_n)
-            )
-            if near.size:
-                kl = _cross32(fit.local, pe, pn, e[idx[near]], n[idx[near]], dt)
-                blocks = [cinv[np.ix_(near, near)], lmeans[near]] + [d[near] for d in devs]
-                gl = kl @ np.hstack(blocks).astype(dt)
-                nn_ = near.size
-                var_l = l_var0 - np.einsum("ij,ij->i", gl[:, :nn_], kl).astype(float)
-                var_l = np.maximum(var_l, 0.0)
-                lmean = gl[:, nn_ : nn_ + len(ks)].astype(float)
-                ldev = gl[:, nn_ + len(ks) :]
-            else:
-                var_l = np.full(len(sel), l_var0)
-                lmean = np.zeros((len(sel), len(ks)))
-                ldev = np.zeros((len(sel), r * len(ks)), dt)
-            base_var = var_z + var_l
-            for j, k in enumerate(ks):
-                bmean, bdev = drift[k]
-                mean = F @ bmean + zmean + lmean[:, j]
-                d = hz + ldev[:, j * r : (j + 1) * r]
-                d += (F.astype(dt)) @ bdev.T.astype(dt)
-                spread = np.einsum("ij,ij->i", d, d).astype(float) * inv_s
-                sd = np.sqrt(np.maximum(base_var + spread, 1e-12))
-                o = out[k]
-                o["mean"][sel] = mean
-                o["sd"][sel] = sd
-                o["prob"][sel] = _probabilities(mean.astype(dt), sd.astype(dt), t.astype(dt))
+        var_z = np.maximum(z_var0 - np.einsum("ij,ij->i", q, q), 0.0)
+        hz = g[:, None, N + 1 :]
+        for idx, ks, w in gdata:
+            # cores near enough to the tile's rectangle to matter
+            de = np.maximum(np.maximum(pe.min() - e[idx], e[idx] - pe.max()), 0.0)
+            dn = np.maximum(np.maximum(pn.min() - n[idx], n[idx] - pn.max()), 0.0)
+            near = np.flatnonzero(de * de + dn * dn <= cut * cut)
+            nn_ = near.size
+            kl = np.empty((m, nn_ + 3), dt)
+            kl[:, :nn_] = _cross32(fit.local, pe, pn, e[idx[near]], n[idx[near]], dt)
+            kl[:, nn_:] = F
+            rows = np.concatenate([near, idx.size + np.arange(3)])
+            cols = np.concatenate([near, idx.size + np.arange(w.shape[1] - idx.size)])
+            gl = kl @ w[np.ix_(rows, cols)]
+            var_l = np.maximum(l_var0 - np.einsum("ij,ij->i", gl[:, :nn_], kl[:, :nn_]), 0.0)
+            nk = len(ks)
+            mean = zmean + gl[:, nn_ : nn_ + nk]  # (m, nk)
+            d = gl[:, nn_ + nk :].reshape(m, nk, r)
+            d += hz
+            spread = np.einsum("ilr,ilr->il", d, d)
+            spread *= inv_s
+            spread += (var_z + var_l)[:, None]
+            np.maximum(spread, dt(1e-12), out=spread)
+            sd = np.sqrt(spread)
+            cdf = special.ndtr((tt[None, None, :] - mean[..., None]) / sd[..., None])
+            p = np.empty((m, nk, K), np.float32)
+            p[..., 0] = cdf[..., 0]
+            np.subtract(cdf[..., 1:], cdf[..., :-1], out=p[..., 1:-1])
+            p[..., -1] = 1.0 - cdf[..., -1]
+            js = [pos[k] for k in ks]
+            mean_o[js, a0:a1] = mean.T
+            sd_o[js, a0:a1] = sd.T
+            prob_o[js, a0:a1] = p.transpose(1, 0, 2)
+
+    spans = list(zip(bounds[:-1], bounds[1:], strict=True))
+    single = _blas_thread_limiter()
+    if _THREADS > 1 and len(spans) > 1 and single is not None:
+        # numpy's elementwise work is single-threaded and the tiles are independent:
+        # one tile per core, each with a single-threaded BLAS (no oversubscription)
+        from concurrent.futures import ThreadPoolExecutor
+
+        def work(a0, a1):
+            single(1)
+            tile(a0, a1)
+
+        with ThreadPoolExecutor(_THREADS) as pool:
+            for f in [pool.submit(work, a0, a1) for a0, a1 in spans]:
+                f.result()
+    else:
+        for a0, a1 in spans:
+            tile(a0, a1)
+    inverse = np.empty_like(order)
+    inverse[order] = np.arange(m_pts)
+    out = {}
+    for j, k in enumerate(keys):
+        out[k] = dict(
+            mean=mean_o[j, inverse].astype(float),
+            sd=sd_o[j, inverse].astype(float),
+            prob=prob_o[j, inverse],
+        )
+        prob_o[j] = 0.0  # let the pages go before the next slice's copy
     return out
