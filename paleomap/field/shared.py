@@ -887,7 +887,8 @@ def _predict_fast(fit: SharedFit, e, n, te, tn):
         zmean = g[:, :1]
         q = g[:, 1 : N + 1]
         var_z = np.maximum(z_var0 - np.einsum("ij,ij->i", q, q), 0.0)
-        hz = g[:, None, N + 1 :]
+        hz = np.ascontiguousarray(g[:, N + 1 :])
+        hh = np.einsum("ir,ir->i", hz, hz)
         for idx, ks, w in gdata:
             # cores near enough to the tile's rectangle to matter
             de = np.maximum(np.maximum(pe.min() - e[idx], e[idx] - pe.max()), 0.0)
@@ -903,9 +904,11 @@ def _predict_fast(fit: SharedFit, e, n, te, tn):
             var_l = np.maximum(l_var0 - np.einsum("ij,ij->i", gl[:, :nn_], kl[:, :nn_]), 0.0)
             nk = len(ks)
             mean = zmean + gl[:, nn_ : nn_ + nk]  # (m, nk)
+            # |relief + own| squared, expanded: no (points, slices, samples) temporary
             d = gl[:, nn_ + nk :].reshape(m, nk, r)
-            d += hz
             spread = np.einsum("ilr,ilr->il", d, d)
+            spread += dt(2.0) * np.einsum("ilr,ir->il", d, hz)
+            spread += hh[:, None]
             spread *= inv_s
             spread += (var_z + var_l)[:, None]
             np.maximum(spread, dt(1e-12), out=spread)
