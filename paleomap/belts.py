@@ -197,10 +197,16 @@ def walther_contacts(polygons, tolerance: float = 0.0) -> list[tuple[int, int]]:
     """
     bad = []
     for i in range(len(polygons)):
+        a = polygons[i]
+        if a.is_empty:
+            continue
+        shapely.prepare(a)  # tested against every belt beyond its neighbour
         for j in range(i + 2, len(polygons)):
-            a, b = polygons[i], polygons[j]
-            if a.is_empty or b.is_empty:
+            b = polygons[j]
+            if b.is_empty:
                 continue
-            if a.distance(b) <= tolerance:
+            # distance <= 0 is intersection; the predicates stop at the first contact
+            near = shapely.intersects(a, b) if tolerance <= 0 else shapely.dwithin(a, b, tolerance)
+            if near:
                 bad.append((i, j))
     return bad

@@ -65,10 +65,16 @@ def regional_dip_azimuth(latent_grids, grid) -> float:
     n = cn[inside] - cn[inside].mean()
     design = np.column_stack([np.ones_like(e), e, n])
     total = np.zeros(2)
+    # one small normal-equations system for every slice whose cells are all finite
+    # (the usual case); the centred design keeps it well conditioned
+    gram = design.T @ design
     for latent in latent_grids:
         z = np.asarray(latent).ravel()[inside]
         ok = np.isfinite(z)
-        coef, *_ = np.linalg.lstsq(design[ok], z[ok], rcond=None)
+        if ok.all():
+            coef = np.linalg.solve(gram, design.T @ z)
+        else:
+            coef, *_ = np.linalg.lstsq(design[ok], z[ok], rcond=None)
         g = coef[1:]
         norm = np.hypot(*g)
         if norm > 0:
