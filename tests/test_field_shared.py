@@ -116,3 +116,21 @@ def test_local_cutoff_below_level():
 def test_method_is_checked():
     with pytest.raises(ValueError, match="method 'fast' is not 'shared' or 'direct'"):
         SharedSettings(method="fast")
+
+
+def test_neighbourhood_mode_matches_global_when_it_holds_every_core(monkeypatch):
+    # Above _GLOBAL_CORES the relief is kriged per tile from its nearest cores and the
+    # slices' residuals from a system of the cores near the tile; with neighbourhoods
+    # as large as the data the maps agree with the global ones.
+    e, n, slices = _basin(n_cores=60, n_slices=3, seed=7)
+    te, tn = _targets(500.0)
+    st = SharedSettings(samples=16, burn_in=10, chains=4, probability="moments")
+    monkeypatch.setattr(shared, "_FAST_BUDGET", 0.0)
+    glob, _ = map_shared(e, n, slices, te, tn, 4, st)
+    monkeypatch.setattr(shared, "_GLOBAL_CORES", 10)
+    monkeypatch.setattr(shared, "_NEIGHBOURS", 60)
+    monkeypatch.setattr(shared, "_TILE_POINTS", 100)
+    near, _ = map_shared(e, n, slices, te, tn, 4, st)
+    for k in slices:
+        np.testing.assert_allclose(near[k].latent_mean, glob[k].latent_mean, atol=1e-3)
+        np.testing.assert_allclose(near[k].probabilities, glob[k].probabilities, atol=1e-3)

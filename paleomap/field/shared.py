@@ -692,6 +692,8 @@ _SPREAD_TAIL = 1e-5
 _TILE_POINTS = 1024
 _VARIANCE_TOL = 1e-6
 _THREADS = min(2, os.cpu_count() or 1)
+_GLOBAL_CORES = 2000  # above it, the relief is kriged in neighbourhoods
+_NEIGHBOURS = 200
 
 
 def _cross32(cov: Covariance, pe, pn, ce, cn, dtype):
@@ -829,52 +831,27 @@ def _predict_fast(fit: SharedFit, e, n, te, tn):
     V = _spread_basis(fit, n_samples) if n_samples > 1 else np.zeros((n_samples, 0))
     r = V.shape[1]
     logger.info("prediction: %d points, spread in %d of %d sample components", m_pts, r, n_samples)
-    # relief: [mean weights | inverse factor | spread weights] in one block
-    Lr = _chol(fit.relief.matrix(e, n), fit.relief.total_variance)
-    alpha_z = linalg.cho_solve((Lr, True), fit.relief_at_cores.T)  # (N, S)
-    Wv = _variance_basis(fit.relief, e, n, te, tn)
-    Wz = np.hstack(
-        [
-            alpha_z.mean(axis=1, keepdims=True),
-            Wv,
-            (alpha_z - alpha_z.mean(1, keepdims=True)) @ V,
-        ]
-    ).astype(dt)
-    N = Wv.shape[1]
-    logger.info("relief variance in %d of %d components", N, e.size)
-    # each set of cores of the slices' own residual: inverse, mean and spread weights
+    keys = list(fit.slices)
+    pos = {k: i for i, k in enumerate(keys)}
     groups: dict[tuple, list] = {}
     for k, sl in fit.slices.items():
         groups.setdefault(tuple(sl["local_index"]), []).append(k)
+    local = e.size > _GLOBAL_CORES
+    if local:
+        logger.info("%d cores: kriging in neighbourhoods of %d cores", e.size, _NEIGHBOURS)
+        relief = _ReliefNeighbourhoods(fit, e, n, V)
+    else:
+        relief = _ReliefGlobal(fit, e, n, te, tn, V)
     cut = _cutoff_m(fit.local, _LOCAL_CUTOFF)
-    gdata = []
-    for idx_t, ks in groups.items():
-        idx = np.asarray(idx_t)
-        Ll = _chol(fit.local.matrix(e[idx], n[idx]), fit.local.total_variance)
-        # columns: [inverse (n_i) | mean weight per slice | spread weights per slice];
-        # three extra rows carry the slices' drifts, multiplied by F(x)
-        w = np.zeros((idx.size + 3, idx.size + len(ks) * (1 + r)))
-        w[: idx.size, : idx.size] = linalg.cho_solve((Ll, True), np.eye(idx.size))
-        for j, k in enumerate(ks):
-            a = linalg.cho_solve((Ll, True), _residual_samples(fit, k, e, n).T)  # (n_i, S)
-            b = fit.slices[k]["drift"]
-            c = idx.size + j
-            w[: idx.size, c] = a.mean(axis=1)
-            w[idx.size :, c] = b.mean(axis=0)
-            c = idx.size + len(ks) + j * r
-            w[: idx.size, c : c + r] = (a - a.mean(axis=1, keepdims=True)) @ V
-            w[idx.size :, c : c + r] = (b - b.mean(axis=0)).T @ V
-        gdata.append((idx, ks, w.astype(dt)))
-    keys = list(fit.slices)
-    pos = {k: i for i, k in enumerate(keys)}
-    L = len(keys)
+    gdata = [
+        _LocalGroup(fit, e, n, np.asarray(idx_t), ks, V, cut, local) for idx_t, ks in groups.items()
+    ]
     # outputs in tile order (contiguous writes), put back in point order at the end
-    mean_o = np.empty((L, m_pts), dt)
-    sd_o = np.empty((L, m_pts), dt)
-    prob_o = np.empty((L, m_pts, K), np.float32)
-    order, bounds = _tiles(te, tn, fit.settings.chunk_size or _TILE_POINTS)
-    z_var0 = fit.relief.total_variance
-    l_var0 = fit.local.total_variance
+    mean_o = [np.empty(m_pts, dt) for _ in keys]
+    sd_o = [np.empty(m_pts, dt) for _ in keys]
+    prob_o = [np.empty((m_pts, K), np.float32) for _ in keys]
+    per_tile = fit.settings.chunk_size or (4 * _TILE_POINTS if local else _TILE_POINTS)
+    order, bounds = _tiles(te, tn, per_tile)
     inv_s = dt(1.0 / n_samples)
     tt = t.astype(dt)
 
@@ -883,45 +860,30 @@ def _predict_fast(fit: SharedFit, e, n, te, tn):
         pe, pn = te[sel], tn[sel]
         m = sel.size
         F = _drift(pe, pn, fit.centre, fit.scale).astype(dt)
-        g = _cross32(fit.relief, pe, pn, e, n, dt) @ Wz
-        zmean = g[:, :1]
-        q = g[:, 1 : N + 1]
-        var_z = np.maximum(z_var0 - np.einsum("ij,ij->i", q, q), 0.0)
-        hz = np.ascontiguousarray(g[:, N + 1 :])
+        zmean, var_z, hz = relief.at(pe, pn)
         hh = np.einsum("ir,ir->i", hz, hz)
-        for idx, ks, w in gdata:
-            # cores near enough to the tile's rectangle to matter
-            de = np.maximum(np.maximum(pe.min() - e[idx], e[idx] - pe.max()), 0.0)
-            dn = np.maximum(np.maximum(pn.min() - n[idx], n[idx] - pn.max()), 0.0)
-            near = np.flatnonzero(de * de + dn * dn <= cut * cut)
-            nn_ = near.size
-            kl = np.empty((m, nn_ + 3), dt)
-            kl[:, :nn_] = _cross32(fit.local, pe, pn, e[idx[near]], n[idx[near]], dt)
-            kl[:, nn_:] = F
-            rows = np.concatenate([near, idx.size + np.arange(3)])
-            cols = np.concatenate([near, idx.size + np.arange(w.shape[1] - idx.size)])
-            gl = kl @ w[np.ix_(rows, cols)]
-            var_l = np.maximum(l_var0 - np.einsum("ij,ij->i", gl[:, :nn_], kl[:, :nn_]), 0.0)
-            nk = len(ks)
-            mean = zmean + gl[:, nn_ : nn_ + nk]  # (m, nk)
-            # |relief + own| squared, expanded: no (points, slices, samples) temporary
-            d = gl[:, nn_ + nk :].reshape(m, nk, r)
-            spread = np.einsum("ilr,ilr->il", d, d)
-            spread += dt(2.0) * np.einsum("ilr,ir->il", d, hz)
-            spread += hh[:, None]
-            spread *= inv_s
-            spread += (var_z + var_l)[:, None]
-            np.maximum(spread, dt(1e-12), out=spread)
-            sd = np.sqrt(spread)
-            cdf = special.ndtr((tt[None, None, :] - mean[..., None]) / sd[..., None])
-            p = np.empty((m, nk, K), np.float32)
-            p[..., 0] = cdf[..., 0]
-            np.subtract(cdf[..., 1:], cdf[..., :-1], out=p[..., 1:-1])
-            p[..., -1] = 1.0 - cdf[..., -1]
-            js = [pos[k] for k in ks]
-            mean_o[js, a0:a1] = mean.T
-            sd_o[js, a0:a1] = sd.T
-            prob_o[js, a0:a1] = p.transpose(1, 0, 2)
+        for grp in gdata:
+            for ks, var_l, mean, d in grp.at(pe, pn, F):
+                nk = len(ks)
+                mean += zmean
+                # |relief + own| squared, expanded: no (points, slices, samples) temporary
+                spread = np.einsum("ilr,ilr->il", d, d)
+                spread += dt(2.0) * np.einsum("ilr,ir->il", d, hz)
+                spread += hh[:, None]
+                spread *= inv_s
+                spread += (var_z + var_l)[:, None]
+                np.maximum(spread, dt(1e-12), out=spread)
+                sd = np.sqrt(spread)
+                cdf = special.ndtr((tt[None, None, :] - mean[..., None]) / sd[..., None])
+                p = np.empty((m, nk, K), np.float32)
+                p[..., 0] = cdf[..., 0]
+                np.subtract(cdf[..., 1:], cdf[..., :-1], out=p[..., 1:-1])
+                p[..., -1] = 1.0 - cdf[..., -1]
+                for jj, k in enumerate(ks):
+                    j = pos[k]
+                    mean_o[j][a0:a1] = mean[:, jj]
+                    sd_o[j][a0:a1] = sd[:, jj]
+                    prob_o[j][a0:a1] = p[:, jj]
 
     spans = list(zip(bounds[:-1], bounds[1:], strict=True))
     single = _blas_thread_limiter()
@@ -945,9 +907,135 @@ def _predict_fast(fit: SharedFit, e, n, te, tn):
     out = {}
     for j, k in enumerate(keys):
         out[k] = dict(
-            mean=mean_o[j, inverse].astype(float),
-            sd=sd_o[j, inverse].astype(float),
-            prob=prob_o[j, inverse],
+            mean=mean_o[j][inverse].astype(float),
+            sd=sd_o[j][inverse].astype(float),
+            prob=prob_o[j][inverse],
         )
-        prob_o[j] = 0.0  # let the pages go before the next slice's copy
+        mean_o[j] = sd_o[j] = prob_o[j] = None  # one slice's copy at a time
     return out
+
+
+class _ReliefGlobal:
+    """The relief from all cores: [mean weights | variance basis | spread weights]."""
+
+    def __init__(self, fit, e, n, te, tn, V):
+        Lr = _chol(fit.relief.matrix(e, n), fit.relief.total_variance)
+        alpha = linalg.cho_solve((Lr, True), fit.relief_at_cores.T)  # (N, S)
+        wv = _variance_basis(fit.relief, e, n, te, tn)
+        mean = alpha.mean(axis=1, keepdims=True)
+        self.w = np.hstack([mean, wv, (alpha - mean) @ V]).astype(np.float32)
+        self.nv = wv.shape[1]
+        logger.info("relief variance in %d of %d components", self.nv, e.size)
+        self.fit, self.e, self.n = fit, e, n
+
+    def at(self, pe, pn):
+        g = _cross32(self.fit.relief, pe, pn, self.e, self.n, np.float32) @ self.w
+        q = g[:, 1 : self.nv + 1]
+        var = np.maximum(self.fit.relief.total_variance - np.einsum("ij,ij->i", q, q), 0.0)
+        return g[:, :1], var, np.ascontiguousarray(g[:, self.nv + 1 :])
+
+
+class _ReliefNeighbourhoods:
+    """The relief from the cores nearest a tile (in the covariance's own metric)."""
+
+    def __init__(self, fit, e, n, V):
+        from scipy.spatial import cKDTree
+
+        self.fit, self.e, self.n, self.V = fit, e, n, V
+        self.uv = np.column_stack(fit.relief._scaled(e, n))
+        self.tree = cKDTree(self.uv)
+
+    def at(self, pe, pn):
+        cov = self.fit.relief
+        u, v = cov._scaled(np.array([pe.min(), pe.max()]), np.array([pn.min(), pn.max()]))
+        cu, cv = cov._scaled(np.array([pe.mean()]), np.array([pn.mean()]))
+        corners = np.array([[u[i], v[j]] for i in (0, 1) for j in (0, 1)])
+        k = min(_NEIGHBOURS, self.e.size)
+        near = [self.tree.query([cu[0], cv[0]], k=k)[1]]
+        near += [self.tree.query(c, k=max(k // 4, 1))[1] for c in corners]
+        J = np.unique(np.concatenate([np.atleast_1d(x) for x in near]))
+        L = _chol(cov.matrix(self.e[J], self.n[J]), cov.total_variance)
+        alpha = linalg.cho_solve((L, True), self.fit.relief_at_cores[:, J].T)
+        mean = alpha.mean(axis=1, keepdims=True)
+        linv = linalg.solve_triangular(L, np.eye(J.size), lower=True)
+        w = np.hstack([mean, linv.T, (alpha - mean) @ self.V]).astype(np.float32)
+        g = _cross32(cov, pe, pn, self.e[J], self.n[J], np.float32) @ w
+        q = g[:, 1 : J.size + 1]
+        var = np.maximum(cov.total_variance - np.einsum("ij,ij->i", q, q), 0.0)
+        return g[:, :1], var, np.ascontiguousarray(g[:, J.size + 1 :])
+
+
+class _LocalGroup:
+    """The slices' own residuals for one set of cores: only cores within ``cut`` of a
+    tile count. With ``local`` the weights come from a system of the cores within
+    twice that distance (per tile), else from the set's global factorisation."""
+
+    def __init__(self, fit, e, n, idx, ks, V, cut, local):
+        self.fit, self.idx, self.ks, self.cut, self.local = fit, idx, ks, cut, local
+        self.e, self.n = e[idx], n[idx]
+        self.r = V.shape[1]
+        self.V = V
+        self.resid = [_residual_samples(fit, k, e, n) for k in ks]  # (S, n_i) each
+        self.drift = np.concatenate(
+            [
+                np.column_stack(
+                    [fit.slices[k]["drift"].mean(axis=0)]
+                    + [(fit.slices[k]["drift"] - fit.slices[k]["drift"].mean(axis=0)).T @ V]
+                )
+                for k in ks
+            ],
+            axis=1,
+        )  # (3, nk * (1 + r)) as [mean, spread...] per slice
+        if not local:
+            self.w = self._weights(np.arange(idx.size))
+
+    def _weights(self, sub):
+        """[inverse | mean weight per slice | spread weights per slice] over ``sub``,
+        three more rows for the drifts (multiplied by F(x))."""
+        fit, r, nk = self.fit, self.r, len(self.ks)
+        L = _chol(fit.local.matrix(self.e[sub], self.n[sub]), fit.local.total_variance)
+        w = np.zeros((sub.size + 3, sub.size + nk * (1 + r)))
+        w[: sub.size, : sub.size] = linalg.cho_solve((L, True), np.eye(sub.size))
+        a = linalg.cho_solve((L, True), np.hstack([x[:, sub].T for x in self.resid]))
+        for j in range(nk):
+            aj = a[:, j * a.shape[1] // nk : (j + 1) * a.shape[1] // nk]
+            c = sub.size + j
+            w[: sub.size, c] = aj.mean(axis=1)
+            w[sub.size :, c] = self.drift[:, j * (1 + r)]
+            c = sub.size + nk + j * r
+            w[: sub.size, c : c + r] = (aj - aj.mean(axis=1, keepdims=True)) @ self.V
+            w[sub.size :, c : c + r] = self.drift[:, j * (1 + r) + 1 : (j + 1) * (1 + r)]
+        return w.astype(np.float32)
+
+    def _within(self, pe, pn, d):
+        de = np.maximum(np.maximum(pe.min() - self.e, self.e - pe.max()), 0.0)
+        dn = np.maximum(np.maximum(pn.min() - self.n, self.n - pn.max()), 0.0)
+        return np.flatnonzero(de * de + dn * dn <= d * d)
+
+    def at(self, pe, pn, F):
+        """Yields (slice keys, own variance, own mean, own spread weights) per batch."""
+        near = self._within(pe, pn, self.cut)
+        if self.local:
+            halo = self._within(pe, pn, 2.0 * self.cut)
+            w = self._weights(halo)
+            rows_of = np.searchsorted(halo, near)
+            base = halo.size
+        else:
+            w, rows_of, base = self.w, near, self.idx.size
+        nn_, nk, r, m = near.size, len(self.ks), self.r, pe.size
+        kl = np.empty((m, nn_ + 3), np.float32)
+        kl[:, :nn_] = _cross32(self.fit.local, pe, pn, self.e[near], self.n[near], np.float32)
+        kl[:, nn_:] = F
+        rows = np.concatenate([rows_of, base + np.arange(3)])
+        gi = kl @ w[np.ix_(rows, rows_of)] if nn_ else np.zeros((m, 0), np.float32)
+        var_l = np.maximum(
+            self.fit.local.total_variance - np.einsum("ij,ij->i", gi, kl[:, :nn_]), 0.0
+        )
+        # slices in batches: (points, slices, samples) stays within about 16 M values
+        step = max(1, int(16e6 // max(m * max(r, 1), 1)))
+        for j0 in range(0, nk, step):
+            j1 = min(nk, j0 + step)
+            cols = np.concatenate([base + np.arange(j0, j1), base + nk + np.arange(j0 * r, j1 * r)])
+            g = kl @ w[np.ix_(rows, cols)]
+            b = j1 - j0
+            yield self.ks[j0:j1], var_l, g[:, :b].copy(), g[:, b:].reshape(m, b, r)
