@@ -78,7 +78,7 @@ def _make_project(size: str, folder: Path, seed: int) -> Path:
         seed=seed,
         size_m=_REGION_M,
         cell_size_m=cell,
-        margin_m=cell,
+        margin_m=1200.0,
         relief_amplitude_m=5.0,
         relief_wavelength_m=15_000.0,
         truth_cell_m=max(cell, 100.0),
@@ -139,6 +139,51 @@ def _worker_build(project_file: str, out: str, figures: bool) -> dict:
         peak_mb=rss_write,
         process_s=t_write - t_start,
     )
+
+
+def _worker_field(project_file: str, fraction: float) -> dict:
+    """The field stage alone on two bands of the grid's rows (for sizes whose whole build
+    does not fit in memory): the fixed and the per-row cost from the two."""
+    warnings.simplefilter("ignore")
+    import numpy as np
+
+    import paleomap
+    from paleomap.agemodel import build_age_models, sample_slices
+    from paleomap.grid import Grid, make_grid
+    from paleomap.pipeline import _map_fields
+
+    project = paleomap.load_project(project_file)
+    t0 = time.perf_counter()
+    samples = sample_slices(project, age_models=build_age_models(project))
+    t_age = time.perf_counter() - t0
+    e = np.array([c.easting for c in project.cores])
+    n = np.array([c.northing for c in project.cores])
+    grid = make_grid(e, n, cell_size=project.grid.cell_size, margin=project.grid.margin)
+    out = dict(
+        age_models_s=t_age,
+        shape=[grid.n_rows, grid.n_cols],
+        slices=len(project.slices),
+        belts=project.scheme.n_belts,
+    )
+    big = max(2, int(round(grid.n_rows * fraction)))
+    for label, rows in (("first", max(1, big // 4)), ("band", big)):
+        band = Grid(
+            grid.west,
+            grid.north,
+            grid.cell_size,
+            rows,
+            grid.n_cols,
+            grid.area,
+            grid.mask[:rows],
+            grid.crs,
+        )
+        t0 = time.perf_counter()
+        fields = _map_fields(project, samples, band)
+        out[label + "_s"] = time.perf_counter() - t0
+        out[label + "_rows"] = rows
+        del fields
+    out["peak_mb"] = _maxrss_mb()
+    return out
 
 
 # ------------------------------------------------------------------ the alternatives
@@ -261,6 +306,30 @@ def _print_alternative(label: str, res: dict) -> float:
     return total
 
 
+def _large_field(project: str, band: float) -> None:
+    res, wall = _run_worker(["--_worker", "field", project, str(band)])
+    r, c = res["shape"]
+    r1, r2 = res["first_rows"], res["band_rows"]
+    per_row = max(res["band_s"] - res["first_s"], 0.0) / max(r2 - r1, 1)
+    fixed = res["first_s"] - per_row * r1
+    full = fixed + per_row * r
+    print(f"\n== large: field stage only, {res['slices']} slices, {r} x {c} cells")
+    print(f"  age models              {res['age_models_s']:>9.2f} s")
+    print(f"  field, {r1} rows         {res['first_s']:>9.2f} s")
+    print(f"  field, {r2} rows         {res['band_s']:>9.2f} s")
+    print(f"  field, fixed part       {fixed:>9.2f} s   (sampler, fits, set-up)")
+    print(
+        f"  field, all {r} rows   {full:>9.2f} s   (scaled from the two bands: "
+        f"{per_row:.3f} s per row)"
+    )
+    print(f"  peak RSS of the band    {res['peak_mb']:>9.0f} MiB")
+    per_slice_mb = r * c * (8 + 8 + 4 * res.get("belts", 5)) / 2**20
+    print(
+        f"  the pipeline holds about {per_slice_mb * res['slices'] / 1024:.1f} GiB of field "
+        "results for all slices at once (mean, sd, probabilities): over the 4 GiB budget"
+    )
+
+
 def main(argv: list[str] | None = None) -> int:
     p = argparse.ArgumentParser(description=__doc__.split("\n\n")[0])
     p.add_argument(
@@ -282,6 +351,19 @@ def main(argv: list[str] | None = None) -> int:
         "--tps-slices", type=int, default=0, help="slices the spline loop is timed on (0: all)"
     )
     p.add_argument("--seed", type=int, default=1)
+    p.add_argument(
+        "--full-large",
+        action="store_true",
+        help="build the large project whole (needs far more than 4 GiB until the "
+        "pipeline keeps one slice's rasters at a time); default: its field stage "
+        "on a band of the grid, scaled",
+    )
+    p.add_argument(
+        "--band",
+        type=float,
+        default=0.25,
+        help="share of the grid's rows the large field stage is timed on",
+    )
     p.add_argument("--keep", type=Path, default=None, help="keep projects and builds here")
     p.add_argument("--_worker", nargs="+", help=argparse.SUPPRESS)
     a = p.parse_args(argv)
@@ -293,6 +375,8 @@ def main(argv: list[str] | None = None) -> int:
             print(json.dumps(dict(project=str(out))))
         elif kind == "build":
             print(json.dumps(_worker_build(rest[0], rest[1], rest[2] == "1")))
+        elif kind == "field":
+            print(json.dumps(_worker_field(rest[0], float(rest[1]))))
         else:
             print(json.dumps(_worker_alternative(rest[0], kind, int(rest[1]))))
         return 0
@@ -318,6 +402,9 @@ def main(argv: list[str] | None = None) -> int:
         made, t_make = _run_worker(["--_worker", "make", size, str(root), str(a.seed)])
         print(f"\n[{size}] project made by the forward model in {t_make:.1f} s (not timed)")
         spec = SIZES[size]
+        if size == "large" and not a.full_large:
+            _large_field(made["project"], a.band)
+            continue
         res, wall = _run_worker(
             [
                 "--_worker",
@@ -335,8 +422,12 @@ def main(argv: list[str] | None = None) -> int:
     if compare != "none":
         project, res = builds[compare]
         print(f"\n== comparison at size {compare}: the same maps scripted without paleomap")
-        ours = res["compute_s"]
-        print(f"  {'paleomap compute':<26}{ours:>9.1f} s   (probabilities, belts, shorelines)")
+        mapping = ("age models", "grid", "field", "belts", "shorelines")
+        ours = sum(dt for name, dt, _ in res["stages"] if name in mapping)
+        print(
+            f"  {'paleomap maps':<26}{ours:>9.1f} s   (age models, field with probabilities, "
+            f"belts, shorelines; {res['compute_s']:.1f} s with the core reading)"
+        )
         gs_res, _ = _run_worker(["--_worker", "gstools", project, str(gs_slices)])
         t_gs = _print_alternative("gstools ordinary kriging", gs_res)
         tps_n = a.tps_slices or res["slices"]
