@@ -286,6 +286,16 @@ def _map_fields(project: Project, samples: pd.DataFrame, grid: Grid):
                 stacklevel=2,
             )
             continue
+        if len(rows) < len(ids) / 2:
+            import warnings
+
+            warnings.warn(
+                f"slice {sl.name!r}: only {len(rows)} of {len(ids)} cores have a record at "
+                f"{sl.age:g} {project.age_unit} (a hiatus or erosion removed the rest, or "
+                "their picks do not bracket the age); the map rests on those cores alone",
+                PaleomapWarning,
+                stacklevel=2,
+            )
         by_slice[sl.name] = (
             np.array([index[c] for c in rows["core_id"]]),
             rows["rank"].to_numpy(int),
