@@ -31,7 +31,6 @@ from __future__ import annotations
 
 from collections.abc import Mapping, Sequence
 
-import numpy as np
 import pandas as pd
 
 from ..project import Surface
@@ -249,20 +248,22 @@ def surface_alignment(
     >>> surface_alignment(ta, pk, [Surface("M", 5.0)])[["n_picked", "n_mfs"]].values.tolist()
     [[2, 1]]
     """
+    # One merge of picks with their core's turnarounds instead of a filter per pick.
+    hits = {"MFS": set(), "MRS": set()}
+    if len(picks) and len(turnarounds):
+        m = picks.merge(turnarounds[["core_id", "kind", "depth_top", "depth_base"]],
+                        on="core_id")
+        inside = (m["depth_top"] - tolerance <= m["depth"]) & (
+            m["depth"] <= m["depth_base"] + tolerance)
+        for kind in hits:
+            sel = m[inside & (m["kind"] == kind)]
+            hits[kind] = set(zip(sel["surface"], sel["core_id"], sel["depth"], strict=True))
     rows = []
     for s in sorted(surfaces, key=lambda s: s.age):
         sp = picks[picks["surface"] == s.name] if len(picks) else picks
-        counts = {"MFS": 0, "MRS": 0}
-        for pk in sp.itertuples(index=False):
-            ta = turnarounds[turnarounds["core_id"] == pk.core_id] if len(turnarounds) else []
-            for kind in counts:
-                if len(ta) == 0:
-                    continue
-                k = ta[ta["kind"] == kind]
-                hit = (k["depth_top"].to_numpy() - tolerance <= pk.depth) & (
-                    pk.depth <= k["depth_base"].to_numpy() + tolerance
-                )
-                counts[kind] += bool(np.any(hit))
+        keys = set(zip(sp["surface"], sp["core_id"], sp["depth"], strict=True)) if len(sp) \
+            else set()
+        counts = {kind: len(keys & found) for kind, found in hits.items()}
         rows.append(
             {
                 "surface": s.name,
