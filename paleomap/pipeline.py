@@ -13,9 +13,11 @@ Examples
 
 from __future__ import annotations
 
+import contextlib
 import datetime as _dt
 import logging
 import time
+import warnings
 from dataclasses import dataclass, field
 from pathlib import Path
 
@@ -59,7 +61,10 @@ class SliceMap:
     """The map of one time slice.
 
     Grids have the grid's shape (rows north to south); ``probabilities`` is
-    (n_belts, rows, cols) float32. ``polygons[k]`` is belt ``k``'s geometry.
+    (n_belts, rows, cols) float32 and ``distal_probability`` the probability of the
+    distal side of the tracked boundary. ``polygons[k]`` is belt ``k``'s geometry;
+    ``distal`` the union of the belts on the distal side; ``nodes`` the contouring
+    nodes (adjusted so every core lies in its own belt).
     """
 
     slice: Slice
@@ -69,20 +74,13 @@ class SliceMap:
     latent: np.ndarray
     latent_sd: np.ndarray
     probabilities: np.ndarray
+    distal_probability: np.ndarray
     nodes: object
     polygons: list
     shoreline: object
     band: object
     distal: object
     quality: dict = field(default_factory=dict)
-
-    @property
-    def distal_probability(self) -> np.ndarray:
-        """Probability of the distal side of the tracked boundary, per cell."""
-        return self._distal_probability
-
-    def set_boundary(self, b: int) -> None:
-        self._distal_probability = self.probabilities[b:].sum(axis=0)
 
     def mapped_belt(self) -> np.ndarray:
         """Belt rank of each cell from the mean latent (the class the polygons show)."""
@@ -119,21 +117,19 @@ class BuildResult:
 
 
 class _Stopwatch:
+    """Wall time per stage, with a progress line as each stage starts."""
+
     def __init__(self):
         self.times: dict[str, float] = {}
 
-    def stage(self, name):
-        sw = self
-
-        class _C:
-            def __enter__(self):
-                self.t = time.perf_counter()
-                log.info("%s ...", name)
-
-            def __exit__(self, *exc):
-                sw.times[name] = sw.times.get(name, 0.0) + time.perf_counter() - self.t
-
-        return _C()
+    @contextlib.contextmanager
+    def stage(self, name: str):
+        log.info("%s ...", name)
+        t = time.perf_counter()
+        try:
+            yield
+        finally:
+            self.times[name] = self.times.get(name, 0.0) + time.perf_counter() - t
 
 
 def compute(project: Project) -> BuildResult:
@@ -277,8 +273,6 @@ def _map_fields(project: Project, samples: pd.DataFrame, grid: Grid):
     for sl in project.slices:
         rows = samples[samples["slice"] == sl.name]
         if len(rows) < 2:
-            import warnings
-
             warnings.warn(
                 f"slice {sl.name!r}: only {len(rows)} core(s) have a record at "
                 f"{sl.age:g} {project.age_unit}; the slice is not mapped",
@@ -287,8 +281,6 @@ def _map_fields(project: Project, samples: pd.DataFrame, grid: Grid):
             )
             continue
         if len(rows) < len(ids) / 2:
-            import warnings
-
             warnings.warn(
                 f"slice {sl.name!r}: only {len(rows)} of {len(ids)} cores have a record at "
                 f"{sl.age:g} {project.age_unit} (a hiatus or erosion removed the rest, or "
@@ -397,6 +389,7 @@ def _slice_map(project: Project, grid: Grid, sl: Slice, fr, b: int) -> SliceMap:
     honour_cores(nodes, fr.easting, fr.northing, fr.ranks, t)
     polygons = belt_polygons(None, grid, t, nodes=nodes)
     line = shoreline(nodes, float(t[b - 1]), grid.area)
+    distal_p = probs[b:].sum(axis=0)
     m = SliceMap(
         sl,
         tuple(fr.core_ids),
@@ -405,30 +398,25 @@ def _slice_map(project: Project, grid: Grid, sl: Slice, fr, b: int) -> SliceMap:
         latent,
         latent_sd,
         probs,
+        distal_p,
         nodes,
         polygons,
         line,
-        None,
+        shoreline_band(distal_p, grid),
         distal_region(polygons, b),
     )
-    m.set_boundary(b)
-    m.band = shoreline_band(m.distal_probability, grid)
     inside = [
         bool(shapely.contains_xy(polygons[r], e, n)) if not polygons[r].is_empty else False
         for e, n, r in zip(fr.easting, fr.northing, fr.ranks, strict=True)
     ]
     touching = walther_contacts(polygons)
     if touching:
-        import warnings
-
         warnings.warn(
             f"slice {sl.name}: belts {touching} touch though they are not neighbours in the scheme",
             PaleomapWarning,
             stacklevel=2,
         )
     if line.is_empty:
-        import warnings
-
         warnings.warn(
             f"slice {sl.name!r}: the tracked boundary "
             f"{project.scheme.boundary_name(b)!r} does not cross the mapped area (every core "
