@@ -340,6 +340,13 @@ def _cov_fields(cov: dict, prefix: str) -> dict:
 def _joint_fields(project, by_slice, ids, e, n, ce, cn, settings):
     from .field.shared import map_shared
 
+    records = sum(len(idx) for idx, _ in by_slice.values())
+    log.info(
+        "field: sampling the latent at %d records of %d slices, then mapping %d cells per slice",
+        records,
+        len(by_slice),
+        ce.size,
+    )
     results, fit = map_shared(e, n, by_slice, ce, cn, project.scheme.n_belts, settings)
     relief = _cov_fields(fit.relief.as_dict(), "relief")
     local = {
