@@ -18,7 +18,7 @@ def run_build(
 ) -> None:
     """Build ``project_path`` into ``out`` and print what was made (shared with ``demo``)."""
     project = load_project(project_path)
-    result = build(project, out, overwrite=overwrite, figures=figures)
+    result = build(project, out, overwrite=overwrite, figures=figures, report=figures)
     if quiet:
         return
     click.echo(f"Built {len(result.slice_maps)} slices of {project.name!r} into {out}")
