@@ -325,6 +325,9 @@ def area_change(
     """
     flooded = shapely.difference(distal_younger, distal_older).area
     exposed = shapely.difference(distal_older, distal_younger).area
+    # slivers below a square metre are rounding in the polygon overlay, not land or sea
+    flooded = flooded if flooded >= 1.0 else 0.0
+    exposed = exposed if exposed >= 1.0 else 0.0
     mean_len = (length_older_m + length_younger_m) / 2
     net = (flooded - exposed) / mean_len if mean_len > 0 else np.nan
     out = dict(flooded_km2=flooded / 1e6, exposed_km2=exposed / 1e6, net_shift_m=float(net))
