@@ -31,15 +31,19 @@ from paleomap.synthetic.demo import demo_basin
 def _basins(seeds):
     yield "demo region", demo_basin()
     for s in seeds:
-        yield f"seed {s}", make_basin(n_cores=40, seed=s, relief_amplitude_m=5.0,
-                                      relief_wavelength_m=15_000.0)
+        yield (
+            f"seed {s}",
+            make_basin(n_cores=40, seed=s, relief_amplitude_m=5.0, relief_wavelength_m=15_000.0),
+        )
 
 
 def main(argv: list[str]) -> int:
     seeds = [int(a) for a in argv] or [1, 2]
     warnings.simplefilter("ignore")
-    print("| basin | cores | spacing km | paleomap | rank spline | information limit | "
-          "ratio | rate error median | rate error worst | senses right |")
+    print(
+        "| basin | cores | spacing km | paleomap | rank spline | information limit | "
+        "ratio | rate error median | rate error worst | senses right |"
+    )
     print("|---|---|---|---|---|---|---|---|---|---|")
     for label, basin in _basins(seeds):
         with tempfile.TemporaryDirectory() as tmp:
@@ -51,10 +55,13 @@ def main(argv: list[str]) -> int:
         shore = shoreline_scores(result, basin)
         rates = rate_scores(result, basin)
         m, s, lim = (shore[c].mean() for c in ("mapped_share", "spline_share", "limit_share"))
-        print(f"| {label} | {len(result.project.cores)} | {shore['spacing_m'].iloc[0] / 1e3:.2f} "
-              f"| {m:.1%} | {s:.1%} | {lim:.1%} | {m / s:.2f} "
-              f"| {rates['relative_error'].median():.1%} | {rates['relative_error'].max():.1%} "
-              f"| {int(rates['sense_ok'].sum())}/{len(rates)} |", flush=True)
+        print(
+            f"| {label} | {len(result.project.cores)} | {shore['spacing_m'].iloc[0] / 1e3:.2f} "
+            f"| {m:.1%} | {s:.1%} | {lim:.1%} | {m / s:.2f} "
+            f"| {rates['relative_error'].median():.1%} | {rates['relative_error'].max():.1%} "
+            f"| {int(rates['sense_ok'].sum())}/{len(rates)} |",
+            flush=True,
+        )
     return 0
 
 

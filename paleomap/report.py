@@ -74,7 +74,8 @@ body{font-family:system-ui,-apple-system,"Segoe UI",Helvetica,Arial,sans-serif;
  max-width:64rem;margin:1.5rem auto;padding:0 1rem;color:#222;line-height:1.45}
 h1{font-size:1.6rem;margin-bottom:.2rem}h2{font-size:1.25rem;margin-top:2rem;
  border-bottom:1px solid #ccc;padding-bottom:.2rem}h3{font-size:1.05rem}
-table{border-collapse:collapse;margin:.6rem 0;font-size:.85rem;display:block;max-width:100%;overflow-x:auto}
+table{border-collapse:collapse;margin:.6rem 0;font-size:.85rem;display:block;max-width:100%;
+ overflow-x:auto}
 th,td{border:1px solid #d0d0d0;padding:.2rem .45rem;text-align:left;vertical-align:top}
 th{background:#f2f2f2}td.num{text-align:right;font-variant-numeric:tabular-nums}
 .caution{background:#fff6e5;border-left:4px solid #e69f00;padding:.5rem .9rem;margin:1rem 0}

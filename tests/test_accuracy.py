@@ -25,8 +25,7 @@ def _basin(which):
     if which == "demo":
         return demo_basin()
     # 40 cores on 40 km x 40 km: a mean spacing of about 6.3 km; relief wavelength 15 km
-    return make_basin(n_cores=40, seed=which, relief_amplitude_m=5.0,
-                      relief_wavelength_m=15_000.0)
+    return make_basin(n_cores=40, seed=which, relief_amplitude_m=5.0, relief_wavelength_m=15_000.0)
 
 
 @pytest.fixture(scope="module", params=["demo", 1, 2], ids=["demo", "seed1", "seed2"])
@@ -65,8 +64,7 @@ def test_information_limit_is_below_both(scored):
 
 def test_sense_is_right_for_every_slice_pair(scored):
     _, _, _, rates = scored
-    assert rates["sense_ok"].all(), rates[["older_slice", "younger_slice", "sense",
-                                           "true_sense"]]
+    assert rates["sense_ok"].all(), rates[["older_slice", "younger_slice", "sense", "true_sense"]]
 
 
 def test_median_transect_rate_error(scored):

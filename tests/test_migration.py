@@ -19,8 +19,9 @@ from paleomap.migration import (
 def test_dip_azimuth_points_where_the_latent_grows():
     from paleomap.grid import make_grid
 
-    g = make_grid(np.array([0.0, 1e4, 0, 1e4]), np.array([0.0, 0, 1e4, 1e4]), cell_size=200.0,
-                  margin=0.0)
+    g = make_grid(
+        np.array([0.0, 1e4, 0, 1e4]), np.array([0.0, 0, 1e4, 1e4]), cell_size=200.0, margin=0.0
+    )
     ee, nn = np.meshgrid(g.easting, g.northing)
     # latent grows towards the south-east: basinward azimuth 135 degrees
     assert regional_dip_azimuth([ee - nn], g) == pytest.approx(135.0, abs=1e-6)
@@ -72,8 +73,9 @@ def test_multiple_crossings_give_the_equal_length_position_and_a_count():
 
 def test_boundary_never_reached_gives_no_position():
     line = shapely.LineString([(0, 0), (1000, 0)])
-    pos = transect_position(line, lambda e, n: -np.ones_like(e), 0.0,
-                            lambda e, n: np.zeros_like(e), 10.0)
+    pos = transect_position(
+        line, lambda e, n: -np.ones_like(e), 0.0, lambda e, n: np.zeros_like(e), 10.0
+    )
     assert np.isnan(pos.position_m) and pos.crossings == 0
 
 
@@ -108,7 +110,11 @@ def test_lsq_rate_is_positive_for_a_transgression():
 
 def test_sense_tolerance():
     assert classify_sense([0.5, -0.5, 0.05, np.nan], 0.1) == [
-        "transgression", "regression", "stillstand", ""]
+        "transgression",
+        "regression",
+        "stillstand",
+        "",
+    ]
 
 
 def test_area_change_of_a_uniform_landward_shift():

@@ -77,8 +77,12 @@ def test_geopackage_meets_ogc_requirements(demo):
         srs = {r[0] for r in con.execute("SELECT srs_id FROM gpkg_spatial_ref_sys")}
         assert {4326, -1, 0} <= srs
         contents = dict(con.execute("SELECT table_name, data_type FROM gpkg_contents"))
-        geom = {r[0]: (r[1], r[2]) for r in con.execute(
-            "SELECT table_name, geometry_type_name, srs_id FROM gpkg_geometry_columns")}
+        geom = {
+            r[0]: (r[1], r[2])
+            for r in con.execute(
+                "SELECT table_name, geometry_type_name, srs_id FROM gpkg_geometry_columns"
+            )
+        }
         c_srs = dict(con.execute("SELECT table_name, srs_id FROM gpkg_contents"))
     finally:
         con.close()
@@ -100,9 +104,20 @@ def test_layers_carry_slice_and_age(demo):
     belts = gpd.read_file(out / GPKG_NAME, layer="facies_belts")
     assert {"belt", "rank", "marine", "area_km2"} <= set(belts.columns)
     shifts = gpd.read_file(out / GPKG_NAME, layer="shoreline_shifts")
-    for col in ("transect", "older_slice", "younger_slice", "older_age", "younger_age",
-                "shift_m", "shift_low_m", "shift_high_m", "rate_m_per_kyr", "rate_low",
-                "rate_high", "sense"):
+    for col in (
+        "transect",
+        "older_slice",
+        "younger_slice",
+        "older_age",
+        "younger_age",
+        "shift_m",
+        "shift_low_m",
+        "shift_high_m",
+        "rate_m_per_kyr",
+        "rate_low",
+        "rate_high",
+        "sense",
+    ):
         assert col in shifts.columns, col
 
 
@@ -114,7 +129,9 @@ def test_every_core_lies_in_the_belt_it_logs(demo):
             rows = s[s["rank"] == rank]
             if len(rows):
                 assert shapely.contains_xy(geom, rows["easting"], rows["northing"]).all(), (
-                    m.slice.name, rank)
+                    m.slice.name,
+                    rank,
+                )
 
 
 def test_belts_that_are_not_neighbours_never_touch(demo):
@@ -128,7 +145,7 @@ def test_belts_that_are_not_neighbours_never_touch(demo):
 def test_belt_areas_partition_the_mapped_area(demo):
     _, result, out = demo
     belts = gpd.read_file(out / GPKG_NAME, layer="facies_belts")
-    for name, group in belts.groupby("slice"):
+    for _name, group in belts.groupby("slice"):
         assert group["area_km2"].sum() == pytest.approx(result.grid.area.area / 1e6, rel=1e-6)
 
 
@@ -144,7 +161,7 @@ def test_rasters_read_back_with_crs_transform_nodata_and_colours(demo):
             assert src.transform == result.grid.transform
             cmap = src.colormap(1)
             for k, color in enumerate(scheme.colors):
-                assert "#%02x%02x%02x" % cmap[k][:3] == color
+                assert "#{:02x}{:02x}{:02x}".format(*cmap[k][:3]) == color
             data = src.read(1)
             assert np.all(data[~result.grid.mask] == 255)
             assert set(np.unique(data[result.grid.mask])) <= set(range(scheme.n_belts))
@@ -166,14 +183,16 @@ def test_rates_csv_equals_the_shift_layer(demo):
     csv = pd.read_csv(out / "rates.csv")
     layer = gpd.read_file(out / GPKG_NAME, layer="shoreline_shifts")
     assert len(csv) == len(layer)
-    assert np.allclose(csv["rate_m_per_kyr"], layer["rate_m_per_kyr"], rtol=1e-5,
-                       equal_nan=True)
+    assert np.allclose(csv["rate_m_per_kyr"], layer["rate_m_per_kyr"], rtol=1e-5, equal_nan=True)
 
 
 def test_run_info_records_version_project_and_checksums(demo):
     project, _, out = demo
-    info = dict(pyogrio.read_dataframe(out / GPKG_NAME, layer="run_info")[["key", "value"]]
-                .itertuples(index=False))
+    info = dict(
+        pyogrio.read_dataframe(out / GPKG_NAME, layer="run_info")[["key", "value"]].itertuples(
+            index=False
+        )
+    )
     assert "paleomap_version" in info
     assert info["project_text"] == project.config_text
     assert "cores.csv" in info["input_sha256"]
@@ -185,8 +204,9 @@ def test_demo_senses_follow_the_synthetic_truth(demo):
     truth = pd.read_csv("demo_region/true_shifts.csv")
     mean = truth[truth["transect"] == "mean"] if "transect" in truth.columns else truth
     for r in result.slice_pairs.itertuples():
-        t = mean[(mean["older_slice"] == r.older_slice) & (mean["younger_slice"] ==
-                                                           r.younger_slice)]
+        t = mean[
+            (mean["older_slice"] == r.older_slice) & (mean["younger_slice"] == r.younger_slice)
+        ]
         assert len(t) == 1
         assert r.sense == t["sense"].iloc[0]
 
@@ -211,3 +231,34 @@ def test_core_reading_is_in_the_geopackage(demo):
     pairs = pyogrio.read_dataframe(out / GPKG_NAME, layer="slice_pairs")
     assert {"n_deepening", "n_shallowing", "agreement"} <= set(pairs.columns)
     assert (pairs["agreement"] != "disagree").all()
+
+
+def test_area_polygon_and_user_transects_are_used(tmp_path):
+    from paleomap.synthetic import make_basin
+    from paleomap.synthetic import write_project as write_synthetic
+
+    basin = make_basin(n_cores=30, seed=3, cell_size_m=500.0, truth_cell_m=1000.0)
+    folder = tmp_path / "p"
+    write_synthetic(basin, folder)
+    x0, y0 = basin.ramp.centre
+    aoi = shapely.box(x0 - 18_000, y0 - 18_000, x0 + 18_000, y0 + 18_000)
+    gpd.GeoDataFrame({"name": ["aoi"]}, geometry=[aoi], crs=basin.crs).to_file(
+        folder / "area.gpkg", driver="GPKG"
+    )
+    lines = [
+        shapely.LineString([(x0 - 17_000, y0 + dy), (x0 + 17_000, y0 + dy)])
+        for dy in (-8_000, 8_000)
+    ]
+    gpd.GeoDataFrame({"name": ["south", "north"]}, geometry=lines, crs=basin.crs).to_file(
+        folder / "lines.geojson", driver="GeoJSON"
+    )
+    text = (folder / "project.toml").read_text().replace("[grid]\n", '[grid]\narea = "area.gpkg"\n')
+    (folder / "project.toml").write_text(text + '\n[migration]\ntransects = "lines.geojson"\n')
+    result = compute(load_project(folder / "project.toml"))
+    assert (
+        result.grid.area.equals_exact(aoi, 1e-6)
+        or result.grid.area.symmetric_difference(aoi).area < 1.0
+    )
+    assert [t.transect for t in result.transects] == ["south", "north"]
+    assert {t.source for t in result.transects} == {"user"}
+    assert set(result.shifts["transect"]) == {"south", "north"}

@@ -35,10 +35,18 @@ RATE = 0.02  # m/kyr
 
 def _planar(tmp_path, *, age_unit="ka", scale=1.0, name="planar"):
     basin = make_basin(
-        n_cores=36, layout="grid", seed=0, relief_amplitude_m=0.0,
-        rates_m_per_kyr=(RATE,) * 5, subsidence_m_per_kyr_per_km=0.0,
-        sea_level=[(a * scale, z) for a, z in SEA], surfaces=[a * scale for a in SURFACES],
-        age_unit=age_unit, gradient_m_per_km=1.5, cell_size_m=400.0, truth_cell_m=400.0,
+        n_cores=36,
+        layout="grid",
+        seed=0,
+        relief_amplitude_m=0.0,
+        rates_m_per_kyr=(RATE,) * 5,
+        subsidence_m_per_kyr_per_km=0.0,
+        sea_level=[(a * scale, z) for a, z in SEA],
+        surfaces=[a * scale for a in SURFACES],
+        age_unit=age_unit,
+        gradient_m_per_km=1.5,
+        cell_size_m=400.0,
+        truth_cell_m=400.0,
         centre_elevation_m=0.0,
     )
     folder = tmp_path / name
@@ -64,8 +72,10 @@ def test_shift_equals_sea_level_change_over_tan_slope(planar):
     for r in result.slice_pairs.itertuples():
         rise = _level(r.younger_age) - _level(r.older_age)
         expected = rise / tan  # REFERENCES.md: horizontal shift = rise / tan(slope)
-        shifts = result.shifts[(result.shifts["older_slice"] == r.older_slice)
-                               & (result.shifts["younger_slice"] == r.younger_slice)]
+        shifts = result.shifts[
+            (result.shifts["older_slice"] == r.older_slice)
+            & (result.shifts["younger_slice"] == r.younger_slice)
+        ]
         shifts = shifts[np.isfinite(shifts["shift_m"])]
         assert len(shifts) >= 3
         median = float(np.median(shifts["shift_m"]))
@@ -84,8 +94,10 @@ def test_transect_and_area_estimates_agree_with_each_other_and_the_truth(planar)
     for r in result.slice_pairs.itertuples():
         expected = (_level(r.younger_age) - _level(r.older_age)) / tan
         dt = r.older_age - r.younger_age
-        shifts = result.shifts[(result.shifts["older_slice"] == r.older_slice)
-                               & (result.shifts["younger_slice"] == r.younger_slice)]
+        shifts = result.shifts[
+            (result.shifts["older_slice"] == r.older_slice)
+            & (result.shifts["younger_slice"] == r.younger_slice)
+        ]
         transect_shift = r.median_rate_m_per_kyr * dt
         # the two estimates agree with each other ...
         assert r.net_shift_m == pytest.approx(transect_shift, rel=0.15, abs=200.0)
@@ -102,8 +114,7 @@ def test_rate_units(planar):
     assert rate_m_per_kyr * 1000 / 1000 == pytest.approx(2.5)  # km/Myr: 1000 m / 1000 kyr
     _, result = planar
     s = result.shifts.dropna(subset=["shift_m"]).iloc[0]
-    assert s["rate_m_per_kyr"] == pytest.approx(
-        s["shift_m"] / (s["older_age"] - s["younger_age"]))
+    assert s["rate_m_per_kyr"] == pytest.approx(s["shift_m"] / (s["older_age"] - s["younger_age"]))
 
 
 def test_rates_are_in_m_per_kyr_with_ages_in_ma(tmp_path, planar):
@@ -113,13 +124,20 @@ def test_rates_are_in_m_per_kyr_with_ages_in_ma(tmp_path, planar):
     a = result_ka.slice_pairs["median_rate_m_per_kyr"].to_numpy()
     b = result_ma.slice_pairs["median_rate_m_per_kyr"].to_numpy()
     assert np.allclose(a, b, rtol=1e-6)
-    assert np.allclose(result_ma.slice_pairs["older_age"] * 1000,
-                       result_ka.slice_pairs["older_age"])
+    assert np.allclose(
+        result_ma.slice_pairs["older_age"] * 1000, result_ka.slice_pairs["older_age"]
+    )
 
 
 def test_geographic_input_gives_the_same_shifts(tmp_path):
-    basin = make_basin(n_cores=36, seed=4, cell_size_m=200.0, truth_cell_m=400.0,
-                       relief_amplitude_m=3.0, relief_wavelength_m=15_000.0)
+    basin = make_basin(
+        n_cores=36,
+        seed=4,
+        cell_size_m=200.0,
+        truth_cell_m=400.0,
+        relief_amplitude_m=3.0,
+        relief_wavelength_m=15_000.0,
+    )
     projected = tmp_path / "utm"
     write_project(basin, projected)
     geographic = tmp_path / "lonlat"
@@ -142,8 +160,9 @@ def test_geographic_input_gives_the_same_shifts(tmp_path):
     geo_project = load_project(geographic / "project.toml")
     r_geo = compute(geo_project)
     # the area-based net shift does not depend on where the transects fall
-    assert np.allclose(r_geo.slice_pairs["net_shift_m"], r_utm.slice_pairs["net_shift_m"],
-                       rtol=0.005)
+    assert np.allclose(
+        r_geo.slice_pairs["net_shift_m"], r_utm.slice_pairs["net_shift_m"], rtol=0.005
+    )
     assert list(r_geo.slice_pairs["sense"]) == list(r_utm.slice_pairs["sense"])
     # a shift measured in the local working CRS is the geodesic distance (pyproj Geod)
     geod = pyproj.Geod(ellps="WGS84")

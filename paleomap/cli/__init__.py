@@ -72,8 +72,12 @@ class _ProgressHandler(logging.Handler):
 
 # Loggers whose INFO records are progress a user wants to see by default; the rest of
 # the library's INFO records (each file written, fitted parameters) show with -v.
-_PROGRESS_LOGGERS = ("paleomap.pipeline", "paleomap.io.writers", "paleomap.figures.all",
-                     "paleomap.report")
+_PROGRESS_LOGGERS = (
+    "paleomap.pipeline",
+    "paleomap.io.writers",
+    "paleomap.figures.all",
+    "paleomap.report",
+)
 
 
 class _ProgressFilter(logging.Filter):
@@ -101,8 +105,9 @@ def _setup_logging(verbose: int, quiet: bool) -> None:
 
 @click.group(cls=_Group, context_settings={"help_option_names": ["-h", "--help"]})
 @click.version_option(__version__, "--version", prog_name="paleomap")
-@click.option("-v", "--verbose", count=True,
-              help="More detail in the progress messages (-vv for debugging).")
+@click.option(
+    "-v", "--verbose", count=True, help="More detail in the progress messages (-vv for debugging)."
+)
 @click.option("-q", "--quiet", is_flag=True, help="Only warnings and errors.")
 @click.pass_context
 def main(ctx: click.Context, verbose: int, quiet: bool) -> None:

@@ -261,8 +261,7 @@ def wheeler_section(
         every = dict(by_slice)
         for j in uniform:
             rows = groups.get_group(slices[j].name)
-            every[j] = (np.array([index[c] for c in rows["core_id"]]),
-                        rows["rank"].to_numpy(int))
+            every[j] = (np.array([index[c] for c in rows["core_id"]]), rows["rank"].to_numpy(int))
         settings = replace(field_settings(project), samples=40, burn_in=60)
         fields, _fit = map_shared(ce, cn, every, xy[:, 0], xy[:, 1], n_belts, settings)
         for j, fr in fields.items():

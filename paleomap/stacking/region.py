@@ -251,18 +251,19 @@ def surface_alignment(
     # One merge of picks with their core's turnarounds instead of a filter per pick.
     hits = {"MFS": set(), "MRS": set()}
     if len(picks) and len(turnarounds):
-        m = picks.merge(turnarounds[["core_id", "kind", "depth_top", "depth_base"]],
-                        on="core_id")
+        m = picks.merge(turnarounds[["core_id", "kind", "depth_top", "depth_base"]], on="core_id")
         inside = (m["depth_top"] - tolerance <= m["depth"]) & (
-            m["depth"] <= m["depth_base"] + tolerance)
+            m["depth"] <= m["depth_base"] + tolerance
+        )
         for kind in hits:
             sel = m[inside & (m["kind"] == kind)]
             hits[kind] = set(zip(sel["surface"], sel["core_id"], sel["depth"], strict=True))
     rows = []
     for s in sorted(surfaces, key=lambda s: s.age):
         sp = picks[picks["surface"] == s.name] if len(picks) else picks
-        keys = set(zip(sp["surface"], sp["core_id"], sp["depth"], strict=True)) if len(sp) \
-            else set()
+        keys = (
+            set(zip(sp["surface"], sp["core_id"], sp["depth"], strict=True)) if len(sp) else set()
+        )
         counts = {kind: len(keys & found) for kind, found in hits.items()}
         rows.append(
             {
