@@ -231,7 +231,7 @@ def slice_map(result: BuildResult, which=0, ax: Axes | None = None) -> Axes:
         labels += [
             "core, filled with its logged belt",
             boundary,
-            f"{boundary} P10-P90 band",
+            "its P10-P90 band",
             "edge of mapped area",
         ]
         if missing:
