@@ -191,12 +191,14 @@ def migration_map(result: BuildResult, ax: Axes | None = None) -> Axes:
 
         set_map_extent(ax, grid.area.bounds)
         coordinate_labels(ax, grid.crs if grid.crs is not None else project.working_crs)
-        boundary = (
-            "Shorelines"
-            if scheme.tracks_shoreline
-            else f"Boundary {scheme.boundary_name(scheme.tracked_boundary)}"
-        )
-        ax.set_title(f"{boundary} and their shifts, {len(maps)} slices", loc="left", fontsize=10)
+        if scheme.tracks_shoreline:
+            title = f"Shorelines and their shifts, {len(maps)} slices"
+            line_label = "shoreline, coloured by age"
+        else:
+            name = scheme.boundary_name(scheme.tracked_boundary)
+            title = f"Boundary {name} and its shifts, {len(maps)} slices"
+            line_label = "tracked boundary, coloured by age"
+        ax.set_title(title, loc="left", fontsize=10)
 
         cax = ax.inset_axes((1.04, 0.55, 0.035, 0.45))
         sm = ScalarMappable(norm=anorm, cmap=acmap)
@@ -237,7 +239,7 @@ def migration_map(result: BuildResult, ax: Axes | None = None) -> Axes:
             Line2D([], [], color=rcmap(0.5), linewidth=1.3, linestyle=":"),
         ]
         labels = [
-            f"{boundary.lower()}, coloured by age",
+            line_label,
             "transect (label at landward end)",
             "transgression (landward shift)",
             "regression (seaward shift)",
