@@ -43,7 +43,7 @@ from .surface import DEFAULT_CRS, Ramp
 from .truth import (
     _belt_geometries,
     _boundary_line,
-    _first_crossing,
+    _crossings,
     _line_samples,
     _sense,
 )
@@ -274,14 +274,7 @@ class SyntheticBasin:
             return np.empty((len(ages), 0))
         xy = np.concatenate([s[0] for s in samples])
         values = self._model.elevation(xy[:, 0], xy[:, 1], self._kyr(ages))
-        out = np.full((len(ages), len(lines)), np.nan)
-        start = 0
-        for i, (pts, dist) in enumerate(samples):
-            stop = start + len(pts)
-            for k in range(len(ages)):
-                out[k, i] = _first_crossing(dist, values[k, start:stop], level)
-            start = stop
-        return out
+        return _crossings(samples, np.atleast_2d(values), level)
 
     def dip_line(self, strike_m: float) -> shapely.LineString:
         """The dip line at ``strike_m`` along strike from the centre, landward end first."""
@@ -761,13 +754,7 @@ def _truth_shifts(model, scheme, bands, surfaces, kyr, spacing, crs):
     rows = []
     for b in boundaries:
         level = bands.boundary_level(b)
-        pos = np.full((len(ages), len(lines)), np.nan)
-        start = 0
-        for i, (pts, dist) in enumerate(samples):
-            stop = start + len(pts)
-            for k in range(len(ages)):
-                pos[k, i] = _first_crossing(dist, values[k, start:stop], level)
-            start = stop
+        pos = _crossings(samples, np.atleast_2d(values), level)
         for k in range(len(ages) - 1):
             older, younger = surfaces[k], surfaces[k + 1]
             dt = (older.age - younger.age) * kyr

@@ -58,6 +58,23 @@ def _first_crossing(distance: np.ndarray, values: np.ndarray, level: float) -> f
     return float(distance[i - 1] + f * (distance[i] - distance[i - 1]))
 
 
+def _crossings(samples, values: np.ndarray, level: float) -> np.ndarray:
+    """First crossing of ``level`` on each sampled line at each age.
+
+    ``samples`` is a list of (points, distances) per line, whose points were stacked
+    in that order into the columns of ``values`` (n_ages, n_points). Returns
+    (n_ages, n_lines) distances, NaN where a line does not cross.
+    """
+    out = np.full((values.shape[0], len(samples)), np.nan)
+    start = 0
+    for i, (pts, dist) in enumerate(samples):
+        stop = start + len(pts)
+        for k in range(values.shape[0]):
+            out[k, i] = _first_crossing(dist, values[k, start:stop], level)
+        start = stop
+    return out
+
+
 def _line_samples(line: shapely.LineString, spacing_m: float) -> tuple[np.ndarray, np.ndarray]:
     """Points along a line (every vertex kept) and their distance from its start."""
     n = max(2, int(np.ceil(line.length / spacing_m)) + 1)
