@@ -27,7 +27,8 @@ Examples
 from __future__ import annotations
 
 import logging
-from dataclasses import dataclass
+import threading
+from dataclasses import dataclass, field
 
 import contourpy
 import numpy as np
@@ -36,6 +37,7 @@ import shapely
 __all__ = [
     "NodeField",
     "belt_polygons",
+    "cell_field_at",
     "classify",
     "honour_cores",
     "node_field",
@@ -66,6 +68,18 @@ class NodeField:
     easting: np.ndarray
     northing: np.ndarray
     values: np.ndarray
+    _generator: object = field(default=None, init=False, repr=False, compare=False)
+
+    def contours(self):
+        """A contourpy generator over the nodes (filled polygons and lines), made on
+        first use and kept until the values change (:func:`honour_cores` drops it)."""
+        if self._generator is None:
+            x, y = _node_mesh(self.easting, self.northing)
+            z = self.values if self.values.dtype == np.float64 else self.values.astype(float)
+            self._generator = contourpy.contour_generator(
+                x, y, z, fill_type="OuterOffset", line_type="Separate"
+            )
+        return self._generator
 
     def at(self, easting: np.ndarray, northing: np.ndarray) -> np.ndarray:
         """Bilinear interpolation of the node values at points inside the rectangle."""
@@ -91,12 +105,49 @@ class NodeField:
         return c, r, np.clip(fc, 0, 1), np.clip(fr, 0, 1)
 
 
+_MESHES: dict = {}
+_MESH_LOCK = threading.Lock()
+
+
+def _node_mesh(easting: np.ndarray, northing: np.ndarray):
+    """The nodes' 2-D coordinates (contourpy wants them), shared by every slice of a grid."""
+    key = (easting.size, float(easting[0]), float(easting[-1]), northing.size,
+           float(northing[0]), float(northing[-1]))  # fmt: skip
+    with _MESH_LOCK:
+        mesh = _MESHES.get(key)
+        if mesh is None:
+            _MESHES.clear()  # one grid at a time
+            mesh = _MESHES[key] = np.meshgrid(easting, northing)
+    return mesh
+
+
 def node_field(latent: np.ndarray, grid) -> NodeField:
-    """Contouring nodes for a latent grid of shape ``grid.shape`` (cell-centre values)."""
-    padded = np.pad(np.asarray(latent, dtype=float), 1, mode="edge")
+    """Contouring nodes for a latent grid of shape ``grid.shape`` (cell-centre values);
+    float32 values stay float32 (large maps), anything else becomes float64."""
+    latent = np.asarray(latent)
+    padded = np.pad(latent if latent.dtype == np.float32 else latent.astype(float), 1, mode="edge")
     e = np.concatenate([[grid.west], grid.easting, [grid.east]])
     n = np.concatenate([[grid.north], grid.northing, [grid.south]])
     return NodeField(e, n, padded)
+
+
+def cell_field_at(grid, easting, northing, cell_values) -> np.ndarray:
+    """What ``node_field(values, grid).at(easting, northing)`` gives, for a cell field
+    known only as a function ``cell_values(rows, cols)``: evaluated at the four nodes
+    around each point alone (for fields too costly to hold for every cell)."""
+    e = np.concatenate([[grid.west], grid.easting, [grid.east]])
+    n = np.concatenate([[grid.north], grid.northing, [grid.south]])
+    c, r, fc, fr = NodeField(e, n, np.empty((0, 0)))._locate(easting, northing)
+
+    def v(rr, cc):  # node (rr, cc) holds cell (rr - 1, cc - 1), edges copied
+        return cell_values(np.clip(rr - 1, 0, grid.n_rows - 1), np.clip(cc - 1, 0, grid.n_cols - 1))
+
+    return (
+        v(r, c) * (1 - fc) * (1 - fr)
+        + v(r, c + 1) * fc * (1 - fr)
+        + v(r + 1, c) * (1 - fc) * fr
+        + v(r + 1, c + 1) * fc * fr
+    )
 
 
 def honour_cores(
@@ -122,6 +173,7 @@ def honour_cores(
     width = np.where(np.isfinite(hi - lo), hi - lo, 1.0)
     low_target = lo + inset * width
     high_target = hi - inset * width
+    nodes._generator = None  # the values change
     adjusted = 0
     for _ in range(4):  # cores sharing a cell can undo each other; a few passes settle it
         value = nodes.at(easting, northing)
@@ -157,9 +209,7 @@ def belt_polygons(latent, grid, thresholds: np.ndarray, *, nodes: NodeField | No
     """
     if nodes is None:
         nodes = node_field(latent, grid)
-    gen = contourpy.contour_generator(
-        nodes.easting, nodes.northing, nodes.values, fill_type="OuterOffset"
-    )
+    gen = nodes.contours()
     levels = np.concatenate([[-np.inf], np.asarray(thresholds, dtype=float), [np.inf]])
     area = grid.area
     out = []

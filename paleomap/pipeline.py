@@ -16,6 +16,7 @@ from __future__ import annotations
 import contextlib
 import datetime as _dt
 import logging
+import os
 import time
 import warnings
 from dataclasses import dataclass, field
@@ -27,8 +28,16 @@ import shapely
 
 from ._version import __version__
 from .agemodel import build_age_models, sample_slices
-from .belts import belt_polygons, classify, honour_cores, node_field, walther_contacts
+from .belts import (
+    belt_polygons,
+    cell_field_at,
+    classify,
+    honour_cores,
+    node_field,
+    walther_contacts,
+)
 from .errors import InputError, PaleomapWarning, Problem
+from .field.normalcdf import distal_probability, moment_probabilities
 from .grid import Grid, make_grid
 from .migration import (
     area_change,
@@ -60,11 +69,15 @@ log = logging.getLogger(__name__)
 class SliceMap:
     """The map of one time slice.
 
-    Grids have the grid's shape (rows north to south); ``probabilities`` is
-    (n_belts, rows, cols) float32 and ``distal_probability`` the probability of the
-    distal side of the tracked boundary. ``polygons[k]`` is belt ``k``'s geometry;
-    ``distal`` the union of the belts on the distal side; ``nodes`` the contouring
-    nodes (adjusted so every core lies in its own belt).
+    Grids have the grid's shape (rows north to south): ``latent`` and ``latent_sd``
+    are the latent's predictive mean and standard deviation (float32 on large maps).
+    :attr:`probabilities` (n_belts, rows, cols) float32 and :attr:`distal_probability`
+    (the probability of the distal side of the tracked boundary) are either stored
+    (where the engine averaged them over its samples) or derived from the mean and sd
+    on each access, which is what keeps a build of many large slices in memory.
+    ``polygons[k]`` is belt ``k``'s geometry; ``distal`` the union of the belts on the
+    distal side; :attr:`nodes` the contouring nodes (adjusted so every core lies in its
+    own belt; rebuilt from the latent and the adjustments on each access).
     """
 
     slice: Slice
@@ -73,18 +86,54 @@ class SliceMap:
     thresholds: np.ndarray
     latent: np.ndarray
     latent_sd: np.ndarray
-    probabilities: np.ndarray
-    distal_probability: np.ndarray
-    nodes: object
+    grid: Grid
+    tracked_boundary: int
+    node_adjustments: tuple
     polygons: list
     shoreline: object
     band: object
     distal: object
+    stored_probabilities: np.ndarray | None = None
     quality: dict = field(default_factory=dict)
 
     def mapped_belt(self) -> np.ndarray:
         """Belt rank of each cell from the mean latent (the class the polygons show)."""
         return classify(self.latent, self.thresholds)
+
+    @property
+    def probabilities(self) -> np.ndarray:
+        """Belt probabilities, (n_belts, rows, cols) float32."""
+        if self.stored_probabilities is not None:
+            return self.stored_probabilities
+        return moment_probabilities(self.latent, self.latent_sd, self.thresholds)
+
+    @property
+    def distal_probability(self) -> np.ndarray:
+        """Probability of the distal side of the tracked boundary, (rows, cols) float32."""
+        b = self.tracked_boundary
+        if self.stored_probabilities is not None:
+            return self.stored_probabilities[b:].sum(axis=0)
+        return distal_probability(self.latent, self.latent_sd, self.thresholds[b - 1])
+
+    def distal_probability_at(self, easting, northing) -> np.ndarray:
+        """:attr:`distal_probability` interpolated at points as its contouring nodes
+        would give it, computed at the points' surrounding cells only."""
+        if self.stored_probabilities is not None:
+            return node_field(self.distal_probability, self.grid).at(easting, northing)
+        t = self.thresholds[self.tracked_boundary - 1]
+
+        def cells(rows, cols):
+            return distal_probability(self.latent[rows, cols], self.latent_sd[rows, cols], t)
+
+        return cell_field_at(self.grid, easting, northing, cells)
+
+    @property
+    def nodes(self):
+        """The contouring nodes (:class:`paleomap.belts.NodeField`), cores honoured."""
+        nodes = node_field(self.latent, self.grid)
+        rows, cols, shift = self.node_adjustments
+        nodes.values[rows, cols] += shift
+        return nodes
 
 
 @dataclass(frozen=True)
@@ -177,11 +226,8 @@ def compute(project: Project) -> BuildResult:
             ]
         )
     b = scheme.tracked_boundary
-    maps: list[SliceMap] = []
     with sw.stage("belts"):
-        for i, (sl, fr) in enumerate(fields):
-            log.info("belts: slice %s (%d of %d)", sl.name, i + 1, len(fields))
-            maps.append(_slice_map(project, grid, sl, fr, b))
+        maps = _belt_maps(project, grid, fields, b)
     with sw.stage("shorelines"):
         dip = regional_dip_azimuth([m.latent for m in maps], grid) if maps else 90.0
         transects, positions = _positions(project, grid, maps, b, dip)
@@ -256,7 +302,7 @@ class _SliceField:
     thresholds: np.ndarray
     latent_mean: np.ndarray
     latent_sd: np.ndarray
-    probabilities: np.ndarray
+    probabilities: np.ndarray | None  # None: they follow from mean and sd
     quality: dict
 
 
@@ -377,7 +423,7 @@ def _joint_fields(project, by_slice, ids, e, n, ce, cn, settings):
                     r.thresholds,
                     r.latent_mean,
                     r.latent_sd,
-                    r.probabilities,
+                    r.stored_probabilities,
                     quality,
                 ),
             )
@@ -385,18 +431,48 @@ def _joint_fields(project, by_slice, ids, e, n, ce, cn, settings):
     return out
 
 
+def _belt_maps(project: Project, grid: Grid, fields, b: int) -> list[SliceMap]:
+    """Every slice's belts, shoreline and band; two slices at a time on two cores
+    (contouring and geometry release the interpreter lock), in slice order."""
+    count = len(fields)
+
+    def one(i):
+        sl, fr = fields[i]
+        log.info("belts: slice %s (%d of %d)", sl.name, i + 1, count)
+        return _slice_map(project, grid, sl, fr, b)
+
+    if _THREADS < 2 or count < 2:
+        return [one(i) for i in range(count)]
+    from concurrent.futures import ThreadPoolExecutor
+
+    with ThreadPoolExecutor(_THREADS) as pool:
+        return list(pool.map(one, range(count)))
+
+
+_THREADS = min(2, os.cpu_count() or 1)
+
+
 def _slice_map(project: Project, grid: Grid, sl: Slice, fr, b: int) -> SliceMap:
     shape = grid.shape
-    latent = np.asarray(fr.latent_mean, dtype=float).reshape(shape)
-    latent_sd = np.asarray(fr.latent_sd, dtype=float).reshape(shape)
-    probs = np.asarray(fr.probabilities, dtype=np.float32).reshape(*shape, -1)
-    probs = np.moveaxis(probs, -1, 0)
+    latent = np.asarray(fr.latent_mean).reshape(shape)
+    latent_sd = np.asarray(fr.latent_sd).reshape(shape)
+    probs = None
+    if fr.probabilities is not None:
+        probs = np.moveaxis(np.asarray(fr.probabilities, np.float32).reshape(*shape, -1), -1, 0)
     t = np.asarray(fr.thresholds, dtype=float)
     nodes = node_field(latent, grid)
+    # honouring moves only the four nodes around a core: note those that moved
+    c0, r0, _, _ = nodes._locate(fr.easting, fr.northing)
+    near = np.unique(np.concatenate([(r0 + dr) * nodes.values.shape[1] + c0 + dc
+                                     for dr in (0, 1) for dc in (0, 1)]))  # fmt: skip
+    before = nodes.values.ravel()[near].copy()
     honour_cores(nodes, fr.easting, fr.northing, fr.ranks, t)
+    moved = nodes.values.ravel()[near] != before
+    rows, cols = np.divmod(near[moved], nodes.values.shape[1])
+    adjustments = (rows, cols, nodes.values.ravel()[near[moved]] - before[moved])
     polygons = belt_polygons(None, grid, t, nodes=nodes)
     line = shoreline(nodes, float(t[b - 1]), grid.area)
-    distal_p = probs[b:].sum(axis=0)
+    del nodes
     m = SliceMap(
         sl,
         tuple(fr.core_ids),
@@ -404,14 +480,16 @@ def _slice_map(project: Project, grid: Grid, sl: Slice, fr, b: int) -> SliceMap:
         t,
         latent,
         latent_sd,
-        probs,
-        distal_p,
-        nodes,
+        grid,
+        b,
+        adjustments,
         polygons,
         line,
-        shoreline_band(distal_p, grid),
+        None,
         distal_region(polygons, b),
+        probs,
     )
+    m.band = shoreline_band(m.distal_probability, grid)
     inside = [
         bool(shapely.contains_xy(polygons[r], e, n)) if not polygons[r].is_empty else False
         for e, n, r in zip(fr.easting, fr.northing, fr.ranks, strict=True)
@@ -458,9 +536,9 @@ def _positions(project: Project, grid: Grid, maps: list[SliceMap], b: int, dip: 
     step = grid.cell_size / 2
     for m in maps:
         t_b = float(m.thresholds[b - 1])
-        pnodes = node_field(m.distal_probability, grid)
+        nodes = m.nodes
         for tr in transects:
-            pos = transect_position(tr.line, m.nodes.at, t_b, pnodes.at, step)
+            pos = transect_position(tr.line, nodes.at, t_b, m.distal_probability_at, step)
             rows.append(
                 dict(
                     transect=tr.transect,

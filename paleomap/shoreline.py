@@ -20,7 +20,6 @@ Examples
 
 from __future__ import annotations
 
-import contourpy
 import numpy as np
 import shapely
 
@@ -38,9 +37,7 @@ def shoreline(nodes: NodeField, threshold: float, area) -> shapely.MultiLineStri
     Returns an empty MultiLineString when the boundary does not cross the mapped area
     (for example when every core of the slice logs the same side of it).
     """
-    gen = contourpy.contour_generator(
-        nodes.easting, nodes.northing, nodes.values, line_type="Separate"
-    )
+    gen = nodes.contours()
     lines = [shapely.LineString(p) for p in gen.lines(threshold) if len(p) >= 2]
     if not lines:
         return shapely.MultiLineString()
@@ -69,10 +66,7 @@ def shoreline_band(distal_probability: np.ndarray, grid, levels=BAND_LEVELS):
     grid : paleomap.grid.Grid
     levels : (float, float)
     """
-    nodes = node_field(distal_probability, grid)
-    gen = contourpy.contour_generator(
-        nodes.easting, nodes.northing, nodes.values, fill_type="OuterOffset"
-    )
+    gen = node_field(distal_probability, grid).contours()
     points, offsets = gen.filled(levels[0], levels[1])
     polys = []
     for pts, off in zip(points, offsets, strict=True):

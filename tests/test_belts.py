@@ -80,3 +80,38 @@ def test_honour_cores_puts_each_core_in_its_own_belt():
         sel = ranks == k
         assert shapely.contains_xy(p, ce[sel], cn[sel]).all()
     assert walther_contacts(polys) == []
+
+
+def test_cell_field_at_equals_the_node_field_interpolation():
+    from paleomap.belts import cell_field_at
+
+    g = _grid()
+    values = _wavy_field(g)
+    rng = np.random.default_rng(7)
+    e = np.concatenate([rng.uniform(g.west, g.east, 500), [g.west, g.east]])
+    n = np.concatenate([rng.uniform(g.south, g.north, 500), [g.north, g.south]])
+    expected = node_field(values, g).at(e, n)
+    got = cell_field_at(g, e, n, lambda r, c: values[r, c])
+    np.testing.assert_allclose(got, expected, rtol=0, atol=1e-12)
+
+
+def test_contours_follow_the_honoured_values():
+    # The contouring generator is kept between calls; honouring must drop it.
+    g = _grid()
+    latent = _wavy_field(g)
+    t = np.array([0.0])
+    nodes = node_field(latent, g)
+    before = belt_polygons(None, g, t, nodes=nodes)
+    ce, cn = np.array([5000.0]), np.array([5000.0])
+    rank = 1 - classify(nodes.at(ce, cn), t)  # the other side
+    honour_cores(nodes, ce, cn, rank, t)
+    after = belt_polygons(None, g, t, nodes=nodes)
+    assert shapely.contains_xy(after[rank[0]], ce, cn).all()
+    assert not shapely.contains_xy(before[rank[0]], ce, cn).all()
+
+
+def test_float32_latent_keeps_float32_nodes():
+    g = _grid()
+    nodes = node_field(_wavy_field(g).astype(np.float32), g)
+    assert nodes.values.dtype == np.float32
+    assert node_field(_wavy_field(g), g).values.dtype == np.float64

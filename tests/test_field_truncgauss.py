@@ -121,6 +121,23 @@ def test_truncated_normal_draws_follow_the_law(a, b):
     )
 
 
+def test_truncated_normal_mixed_draws_follow_each_law():
+    # Means inside, near and far outside their intervals, so some values keep the plain
+    # normal draw and others take the inverse CDF (plain and log space). Each draw's
+    # CDF under its own law (scipy.stats.truncnorm, reference library) must be uniform.
+    rng = np.random.default_rng(4)
+    n = 6000
+    mean = rng.normal(0.0, 3.0, n)
+    sd = rng.uniform(0.1, 1.5, n)
+    lo = rng.choice([-np.inf, -1.0, 0.5, 7.0], n)
+    width = rng.choice([0.3, 2.0, np.inf], n)
+    hi = np.where(np.isinf(lo), rng.choice([-0.5, 2.0], n), np.where(np.isinf(lo), 0.0, lo) + width)
+    x = truncated_normal(mean, sd, lo, hi, np.random.default_rng(5))
+    assert np.all((x >= lo) & (x <= hi)) and np.all(np.isfinite(x))
+    u = stats.truncnorm((lo - mean) / sd, (hi - mean) / sd, loc=mean, scale=sd).cdf(x)
+    assert stats.kstest(u, "uniform").pvalue > 1e-3
+
+
 def test_truncated_normal_far_tail_is_finite():
     x = truncated_normal(0.0, 1.0, np.full(100, 60.0), np.inf, np.random.default_rng(2))
     assert np.all(np.isfinite(x)) and np.all(x >= 60.0) and np.all(x < 61.0)

@@ -262,3 +262,51 @@ def test_area_polygon_and_user_transects_are_used(tmp_path):
     assert [t.transect for t in result.transects] == ["south", "north"]
     assert {t.source for t in result.transects} == {"user"}
     assert set(result.shifts["transect"]) == {"south", "north"}
+
+
+def test_float32_maps_derive_probabilities_from_the_latent(tmp_path, monkeypatch):
+    # Large maps keep only the latent's mean and sd per slice (float32); probabilities,
+    # the distal side and the contouring nodes are derived again on access and must be
+    # what the engine's moments give, whatever asks for them.
+    import paleomap.field.shared as shared
+    from paleomap.belts import node_field
+    from paleomap.field.normalcdf import moment_probabilities
+
+    monkeypatch.setattr(shared, "_FAST_BUDGET", 0.0)
+    result = compute(load_project(DEMO))
+    b = result.project.scheme.tracked_boundary
+    g = result.grid
+    rng = np.random.default_rng(0)
+    pe = rng.uniform(g.west, g.east, 300)
+    pn = rng.uniform(g.south, g.north, 300)
+    for m in result.slice_maps:
+        assert m.stored_probabilities is None
+        assert m.latent.dtype == np.float32 and m.latent_sd.dtype == np.float32
+        p = m.probabilities
+        assert p.shape == (result.project.scheme.n_belts, *g.shape)
+        np.testing.assert_array_equal(p, moment_probabilities(m.latent, m.latent_sd, m.thresholds))
+        np.testing.assert_allclose(m.distal_probability, p[b:].sum(axis=0), rtol=0, atol=1e-6)
+        np.testing.assert_allclose(
+            m.distal_probability_at(pe, pn),
+            node_field(m.distal_probability, g).at(pe, pn),
+            rtol=0,
+            atol=1e-6,
+        )
+        # the rebuilt nodes carry the honouring: every core in its own belt
+        nodes = m.nodes
+        at_cores = nodes.at(*_core_xy(result, m))
+        assert np.array_equal(np.searchsorted(m.thresholds, at_cores, side="right"), m.ranks)
+    out = tmp_path / "build"
+    write_build(result, out, figures=False, report=False)
+    m = result.slice_maps[0]
+    with rasterio.open(out / "rasters" / raster_names(m.slice.name)["probabilities"]) as src:
+        written = src.read()
+    inside = g.mask
+    np.testing.assert_array_equal(written[:, inside], m.probabilities[:, inside])
+
+
+def _core_xy(result, m):
+    by_id = {c.core_id: c for c in result.project.cores}
+    e = np.array([by_id[c].easting for c in m.core_ids])
+    n = np.array([by_id[c].northing for c in m.core_ids])
+    return e, n

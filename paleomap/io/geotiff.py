@@ -267,7 +267,12 @@ def _profile(shape, count: int, dtype: str, transform, crs, nodata) -> dict:
         "crs": _rasterio_crs(crs),
         "transform": _affine(transform),
         "nodata": nodata,
+        # DEFLATE opens in every GIS that reads GeoTIFF; level 1 writes about twice as
+        # fast as the default 6 for a few per cent more bytes, and GDAL compresses the
+        # tiles on all cores.
         "compress": "deflate",
+        "zlevel": 1,
+        "num_threads": "ALL_CPUS",
         "tiled": True,
         "blockxsize": block,
         "blockysize": block,
