@@ -118,10 +118,13 @@ def test_method_is_checked():
         SharedSettings(method="fast")
 
 
-def test_neighbourhood_mode_matches_global_when_it_holds_every_core(monkeypatch):
+@pytest.mark.parametrize("resid_budget", [0, 2**40], ids=["resid-per-tile", "resid-global"])
+def test_neighbourhood_mode_matches_global_when_it_holds_every_core(monkeypatch, resid_budget):
     # Above _GLOBAL_CORES the relief is kriged per tile from its nearest cores and the
-    # slices' residuals from a system of the cores near the tile; with neighbourhoods
-    # as large as the data the maps agree with the global ones.
+    # slices' residuals either from a system of the cores near the tile or, while
+    # their weights fit the budget, from the set's global factorisation; with
+    # neighbourhoods as large as the data the maps agree with the global ones.
+    monkeypatch.setattr(shared, "_LOCAL_WEIGHT_BYTES", resid_budget)
     e, n, slices = _basin(n_cores=60, n_slices=3, seed=7)
     te, tn = _targets(500.0)
     st = SharedSettings(samples=16, burn_in=10, chains=4, probability="moments")

@@ -277,6 +277,7 @@ class _Sampler:
         self.S = n_slices
         self.F = _drift(e, n, centre, scale)
         self.Fo = self.F[obs_core]
+        self.flat = obs_slice * e.size + obs_core  # (slice, core) of each observation
         self.rng = rng
         self.det = deterministic
         self.count = np.bincount(obs_core, minlength=e.size).astype(float)
@@ -300,17 +301,20 @@ class _Sampler:
         self.relief = relief
         self.s2 = sigma_e2
         c = relief.matrix(self.e, self.n)
-        self.Lc = _chol(c, relief.total_variance)
         d = self.s2 / self.count
-        self.Lm = _chol(c + np.diag(d), relief.total_variance)
-        self.C = c
-        # Z's update is C M^-1 rhs: with few cores one matrix product per sweep beats
-        # two triangular solves (their cost is mostly latency at 8 right-hand sides)
-        self.AT = (
-            linalg.cho_solve((self.Lm, True), c, check_finite=False)
-            if self.e.size <= _GLOBAL_CORES
-            else None
-        )
+        Lm = _chol(c + np.diag(d), relief.total_variance)
+        # Z's update is C M^-1 rhs: one matrix product per sweep instead of two
+        # triangular solves and a product (with 8 right-hand sides all three are bound
+        # by reading the cores² matrix, not by arithmetic)
+        at = linalg.cho_solve((Lm, True), c, check_finite=False)  # M^-1 C = (C M^-1)^T
+        del Lm
+        lc = _chol(c, relief.total_variance)
+        del c
+        if self.e.size > _GLOBAL_CORES:
+            # Many cores: the two products per sweep read the matrices in float32,
+            # half the memory traffic; a random draw does not need float64 rounding.
+            at, lc = at.astype(np.float32), lc.astype(np.float32)
+        self.AT, self.Lc = at, lc
         self.d = d
 
     def init(self, chains):
@@ -324,14 +328,14 @@ class _Sampler:
         chains = y.shape[0]
         # 1. y | Z, beta
         # drift of every (slice, core), then gathered: cheaper than per observation
-        mean = (beta @ self.F.T)[:, self.os, self.oc] + z[:, self.oc]
+        mean = self._drift_obs(beta) + np.take(z, self.oc, axis=1)
         sd = np.sqrt(self.s2)
         if self.det:
             y = truncated_normal_mean(mean, sd, self.lo, self.hi)
         else:
             y = truncated_normal(mean, sd, self.lo, self.hi, self.rng)
         # 2. beta | y, Z
-        u = y - z[:, self.oc]
+        u = y - np.take(z, self.oc, axis=1)
         for s, rows in enumerate(self.slice_rows):
             if rows.size == 0:
                 continue
@@ -345,7 +349,7 @@ class _Sampler:
                 )
             beta[:, s, :] = b
         # 3. Z | y, beta (Matheron's rule: Z = Z* + C M^-1 (ubar - Z* - e*))
-        r = y - (beta @ self.F.T)[:, self.os, self.oc]
+        r = y - self._drift_obs(beta)
         ubar = np.zeros((chains, self.e.size))
         for c in range(chains):
             ubar[c] = np.bincount(self.oc, weights=r[c], minlength=self.e.size)
@@ -354,19 +358,21 @@ class _Sampler:
             rhs = ubar
             zs = 0.0
         else:
-            zs = (self.Lc @ self.rng.standard_normal((self.e.size, chains))).T
+            xi = self.rng.standard_normal((self.e.size, chains))
+            zs = (self.Lc @ xi.astype(self.Lc.dtype, copy=False)).T.astype(float)
             es = np.sqrt(self.d)[None] * self.rng.standard_normal((chains, self.e.size))
             rhs = ubar - zs - es
-        if self.AT is not None:
-            z = zs + rhs @ self.AT
-        else:
-            w = linalg.cho_solve((self.Lm, True), rhs.T, check_finite=False)
-            z = zs + (self.C @ w).T
+        z = zs + rhs.astype(self.AT.dtype, copy=False) @ self.AT
         # 4. move Z's linear part into the drifts
         g = z @ self.Fpinv.T
         z = z - g @ self.F.T
         beta = beta + g[:, None, :]
         return y, beta, z
+
+    def _drift_obs(self, beta):
+        """Each chain's drift at every observation, (chains, observations)."""
+        per_cell = (beta @ self.F.T).reshape(beta.shape[0], -1)  # (chains, slices x cores)
+        return np.take(per_cell, self.flat, axis=1)
 
     def run(self, chains, burn_in, keep, thin):
         y, beta, z = self.init(chains)
@@ -463,6 +469,7 @@ def map_shared(
     keep = 1 if st.deterministic else st.samples
     ys, betas, zs = sampler.run(chains, st.burn_in, keep, st.thin)
     logger.info("shared relief covariance: %s; slice residual variance %.3f", relief.as_dict(), s2)
+    del sampler  # its covariance factors (3 x cores² floats) are not needed to map
 
     local = Covariance(relief.model, s2, st.local_range * spacing, 1.0, 0.0)
     slices = {}
@@ -717,6 +724,7 @@ _LOCAL_CUTOFF = 1e-5
 _SPREAD_TAIL = 1e-5
 _TILE_POINTS = 1024
 _CACHE_VALUES = 32768  # float32 values per block of elementwise work (128 KiB)
+_LOCAL_WEIGHT_BYTES = 512 * 2**20  # global residual weights of every set of cores, at most
 _VARIANCE_TOL = 1e-6
 _THREADS = min(2, os.cpu_count() or 1)
 _GLOBAL_CORES = 2000  # above it, the relief is kriged in neighbourhoods
@@ -892,8 +900,16 @@ def _predict_fast(fit: SharedFit, e, n, te, tn):
     else:
         relief = _ReliefGlobal(fit, e, n, te, tn, V)
     cut = _cutoff_m(fit.local, _LOCAL_CUTOFF)
+    # The slices' own residuals: one global factorisation per set of cores while their
+    # weights fit the budget (exact, and the cheapest per tile); else a system of the
+    # cores near each tile.
+    weight_bytes = 4 * sum(
+        (len(i) + 3) * (len(i) + len(ks) * (1 + r)) for i, ks in groups.items()
+    )
+    local_resid = local and weight_bytes > _LOCAL_WEIGHT_BYTES
     gdata = [
-        _LocalGroup(fit, e, n, np.asarray(idx_t), ks, V, cut, local) for idx_t, ks in groups.items()
+        _LocalGroup(fit, e, n, np.asarray(idx_t), ks, V, cut, local_resid)
+        for idx_t, ks in groups.items()
     ]
     # outputs in point order, float32; the belt probabilities follow from the two
     # (moments) and are derived when asked for (SharedResult.probabilities)
@@ -1009,6 +1025,17 @@ class _ReliefNeighbourhoods:
         return g[:, :1], var, np.ascontiguousarray(g[:, J.size + 1 :])
 
 
+def _inverse_from_cholesky(L: np.ndarray) -> np.ndarray:
+    """The inverse of ``L Lᵀ`` from its lower Cholesky factor (LAPACK potri: a third of
+    the work of solving against the identity)."""
+    inv, info = linalg.lapack.dpotri(L, lower=1)
+    if info != 0:
+        return linalg.cho_solve((L, True), np.eye(L.shape[0]))
+    upper = np.triu_indices(L.shape[0], 1)
+    inv[upper] = inv.T[upper]
+    return inv
+
+
 class _LocalGroup:
     """The slices' own residuals for one set of cores: only cores within ``cut`` of a
     tile count. With ``local`` the weights come from a system of the cores within
@@ -1017,39 +1044,40 @@ class _LocalGroup:
     def __init__(self, fit, e, n, idx, ks, V, cut, local):
         self.fit, self.idx, self.ks, self.cut, self.local = fit, idx, ks, cut, local
         self.e, self.n = e[idx], n[idx]
-        self.r = V.shape[1]
-        self.V = V
-        self.resid = [_residual_samples(fit, k, e, n) for k in ks]  # (S, n_i) each
-        self.drift = np.concatenate(
-            [
-                np.column_stack(
-                    [fit.slices[k]["drift"].mean(axis=0)]
-                    + [(fit.slices[k]["drift"] - fit.slices[k]["drift"].mean(axis=0)).T @ V]
-                )
-                for k in ks
-            ],
-            axis=1,
-        )  # (3, nk * (1 + r)) as [mean, spread...] per slice
+        self.r = r = V.shape[1]
+        # Each slice's residual samples enter only through their mean and their
+        # deviations in the spread basis, and kriging is linear in them: project once,
+        # (n_i, nk + nk r) in the weights' column order [means | spreads per slice].
+        means, spreads, d_mean, d_spread = [], [], [], []
+        for k in ks:
+            res = _residual_samples(fit, k, e, n)  # (S, n_i)
+            mu = res.mean(axis=0)
+            means.append(mu[:, None])
+            spreads.append((res - mu).T @ V)
+            drift = fit.slices[k]["drift"]  # (S, 3)
+            dm = drift.mean(axis=0)
+            d_mean.append(dm[:, None])
+            d_spread.append((drift - dm).T @ V)
+        self.proj = np.hstack(means + spreads)
+        self.drift = np.hstack(d_mean + d_spread)  # (3, nk + nk r), same order
         if not local:
             self.w = self._weights(np.arange(idx.size))
 
     def _weights(self, sub):
         """[inverse | mean weight per slice | spread weights per slice] over ``sub``,
-        three more rows for the drifts (multiplied by F(x))."""
-        fit, r, nk = self.fit, self.r, len(self.ks)
+        three more rows for the drifts (multiplied by F(x)); float32, built without a
+        float64 copy of the whole."""
+        fit, n_s = self.fit, sub.size
         L = _chol(fit.local.matrix(self.e[sub], self.n[sub]), fit.local.total_variance)
-        w = np.zeros((sub.size + 3, sub.size + nk * (1 + r)))
-        w[: sub.size, : sub.size] = linalg.cho_solve((L, True), np.eye(sub.size))
-        a = linalg.cho_solve((L, True), np.hstack([x[:, sub].T for x in self.resid]))
-        for j in range(nk):
-            aj = a[:, j * a.shape[1] // nk : (j + 1) * a.shape[1] // nk]
-            c = sub.size + j
-            w[: sub.size, c] = aj.mean(axis=1)
-            w[sub.size :, c] = self.drift[:, j * (1 + r)]
-            c = sub.size + nk + j * r
-            w[: sub.size, c : c + r] = (aj - aj.mean(axis=1, keepdims=True)) @ self.V
-            w[sub.size :, c : c + r] = self.drift[:, j * (1 + r) + 1 : (j + 1) * (1 + r)]
-        return w.astype(np.float32)
+        w = np.empty((n_s + 3, n_s + self.proj.shape[1]), np.float32)
+        w[:n_s, :n_s] = _inverse_from_cholesky(L)
+        w[n_s:, :n_s] = 0.0
+        step = max(1, _CACHE_VALUES * 64 // max(n_s, 1))  # columns per solve
+        for c0 in range(0, self.proj.shape[1], step):
+            c1 = min(self.proj.shape[1], c0 + step)
+            w[:n_s, n_s + c0 : n_s + c1] = linalg.cho_solve((L, True), self.proj[sub, c0:c1])
+        w[n_s:, n_s:] = self.drift
+        return w
 
     def _within(self, pe, pn, d):
         de = np.maximum(np.maximum(pe.min() - self.e, self.e - pe.max()), 0.0)

@@ -261,7 +261,9 @@ def truncated_normal(
     idx = np.flatnonzero(miss.ravel())
     if idx.size:
         flat = x.reshape(-1)  # x is a new array: a view we can write through
-        m, s, lo, hi = (np.ravel(v)[idx] for v in (mean, sd, lower, upper))
+        # index the broadcast views (no full-size copies of the broadcast inputs)
+        where = np.unravel_index(idx, miss.shape)
+        m, s, lo, hi = (v[where] for v in (mean, sd, lower, upper))
         flat[idx] = _truncnorm_inverse(m, s, lo, hi, rng.random(idx.size))
     return x
 

@@ -74,10 +74,20 @@ class RankProfile:
         [4.0, 6.0]
         """
         t, b, r = core.rank_profile()
-        tt = np.maximum(t, top)
-        bb = np.minimum(b, base)
+        return cls(np.asarray(t, float), np.asarray(b, float), np.asarray(r, int)).clipped(
+            top, base
+        )
+
+    def clipped(self, top: float = -np.inf, base: float = np.inf) -> RankProfile:
+        """The profile clipped to the depth window ``[top, base]``.
+
+        >>> RankProfile.from_arrays([0, 4], [4, 10], [1, 2]).clipped(2, 6).tops.tolist()
+        [2.0, 4.0]
+        """
+        tt = np.maximum(self.tops, top)
+        bb = np.minimum(self.bases, base)
         keep = bb > tt
-        return cls(tt[keep], bb[keep], r[keep])
+        return RankProfile(tt[keep], bb[keep], self.ranks[keep])
 
     def __len__(self) -> int:
         return len(self.ranks)

@@ -218,9 +218,12 @@ def _nearest_pick(core: Core, depth: float) -> tuple[str, float]:
     return best, dist
 
 
-def _surface_depth(core: Core, surface: Surface, model) -> tuple[float, bool]:
-    """Depth of a surface in a core: its pick, else where the age model reaches its age."""
-    d = core.pick_depth(surface.name)
+def _surface_depth(core: Core, surface: Surface, model, picked=None) -> tuple[float, bool]:
+    """Depth of a surface in a core: its pick, else where the age model reaches its age.
+
+    ``picked`` (surface name -> depth of its first pick) saves the search of the picks.
+    """
+    d = core.pick_depth(surface.name) if picked is None else picked.get(surface.name)
     if d is not None:
         return float(d), True
     if model is None or not core.intervals:
@@ -333,11 +336,20 @@ def read_cores(
         for p in core.picks:
             picks.append({"core_id": core.core_id, "surface": p.surface, "depth": p.depth})
 
+        full = RankProfile.from_core(core)
+        trends: dict = {}  # (top, base) -> Trend: picked intervals and pairs share windows
+
+        def trend(top, base, full=full, trends=trends):
+            key = (float(top), float(base))
+            if key not in trends:
+                trends[key] = classify(full.clipped(top, base))
+            return trends[key]
+
         ordered = sorted(core.picks, key=lambda p: p.depth)
         for young, old in zip(ordered[:-1], ordered[1:], strict=True):
             if old.depth <= young.depth:
                 continue
-            t = classify(RankProfile.from_core(core, young.depth, old.depth))
+            t = trend(young.depth, old.depth)
             intervals.append(
                 {
                     "core_id": core.core_id,
@@ -355,12 +367,13 @@ def read_cores(
                 }
             )
 
+        picked = {p.surface: p.depth for p in reversed(core.picks)}  # first pick wins
         for older, younger in pairs:
-            d_old, p_old = _surface_depth(core, older, model)
-            d_young, p_young = _surface_depth(core, younger, model)
+            d_old, p_old = _surface_depth(core, older, model, picked)
+            d_young, p_young = _surface_depth(core, younger, model, picked)
             if not (np.isfinite(d_old) and np.isfinite(d_young)) or d_old <= d_young:
                 continue
-            t = classify(RankProfile.from_core(core, d_young, d_old))
+            t = trend(d_young, d_old)
             pair_rows.append(
                 {
                     "core_id": core.core_id,
@@ -374,8 +387,8 @@ def read_cores(
                 }
             )
 
-        whole = classify(RankProfile.from_core(core))
-        tt = find_turnarounds(RankProfile.from_core(core), st.min_change, st.spike_fraction)
+        whole = classify(full)
+        tt = find_turnarounds(full, st.min_change, st.spike_fraction)
         for ta in tt:
             name, dist = _nearest_pick(core, ta.depth)
             turns.append(
