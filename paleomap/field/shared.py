@@ -719,7 +719,7 @@ def _predict_direct(fit: SharedFit, e, n, te, tn):
 #   together, keeping all but _SPREAD_TAIL of their energy), never as
 #   (points x samples) per slice.
 
-_FAST_BUDGET = 1e8  # points x samples x slices; below it the exact float64 path
+_FAST_BUDGET = 1e7  # points x samples x slices; below it the exact float64 path
 _LOCAL_CUTOFF = 1e-5
 _SPREAD_TAIL = 1e-5
 _TILE_POINTS = 1024
@@ -740,6 +740,8 @@ def _cross32(cov: Covariance, pe, pn, ce, cn, dtype, rhs=None):
     ``rhs`` each block is multiplied while it is still there and the full
     cross-covariance is never held.
     """
+    if np.size(ce) == 0:  # no core near a tile
+        return np.zeros((np.size(pe), 0 if rhs is None else rhs.shape[1]), dtype)
     az = np.deg2rad(cov.azimuth_deg)
     sa, ca = np.sin(az), np.cos(az)
     a, b = cov.range_m, cov.anisotropy * cov.range_m
@@ -903,9 +905,7 @@ def _predict_fast(fit: SharedFit, e, n, te, tn):
     # The slices' own residuals: one global factorisation per set of cores while their
     # weights fit the budget (exact, and the cheapest per tile); else a system of the
     # cores near each tile.
-    weight_bytes = 4 * sum(
-        (len(i) + 3) * (len(i) + len(ks) * (1 + r)) for i, ks in groups.items()
-    )
+    weight_bytes = 4 * sum((len(i) + 3) * (len(i) + len(ks) * (1 + r)) for i, ks in groups.items())
     local_resid = local and weight_bytes > _LOCAL_WEIGHT_BYTES
     gdata = [
         _LocalGroup(fit, e, n, np.asarray(idx_t), ks, V, cut, local_resid)

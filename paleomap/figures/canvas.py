@@ -151,7 +151,10 @@ def save_figure(fig: Figure, stem: str | Path, formats: Sequence[str] = ("png",)
             meta = {"Creator": "paleomap", "Date": None}
         elif fmt == "pdf":
             meta = {"Creator": "paleomap", "CreationDate": None}
-        fig.savefig(path, format=fmt, dpi=REPORT_DPI, metadata=meta)
+        # zlib level 3 encodes in about half the time of the default 6, a few per cent
+        # larger
+        extra = {"pil_kwargs": {"compress_level": 3}} if fmt == "png" else {}
+        fig.savefig(path, format=fmt, dpi=REPORT_DPI, metadata=meta, **extra)
         out.append(path)
     return out
 
