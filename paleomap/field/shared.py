@@ -1044,7 +1044,7 @@ class _LocalGroup:
     def __init__(self, fit, e, n, idx, ks, V, cut, local):
         self.fit, self.idx, self.ks, self.cut, self.local = fit, idx, ks, cut, local
         self.e, self.n = e[idx], n[idx]
-        self.r = r = V.shape[1]
+        self.r = V.shape[1]
         # Each slice's residual samples enter only through their mean and their
         # deviations in the spread basis, and kriging is linear in them: project once,
         # (n_i, nk + nk r) in the weights' column order [means | spreads per slice].
