@@ -85,12 +85,7 @@ class NodeField:
         """Bilinear interpolation of the node values at points inside the rectangle."""
         c, r, fc, fr = self._locate(easting, northing)
         v = self.values
-        return (
-            v[r, c] * (1 - fc) * (1 - fr)
-            + v[r, c + 1] * fc * (1 - fr)
-            + v[r + 1, c] * (1 - fc) * fr
-            + v[r + 1, c + 1] * fc * fr
-        )
+        return _bilinear(lambda rr, cc: v[rr, cc], r, c, fr, fc)
 
     def _locate(self, easting, northing):
         e = np.asarray(easting, dtype=float)
@@ -142,11 +137,17 @@ def cell_field_at(grid, easting, northing, cell_values) -> np.ndarray:
     def v(rr, cc):  # node (rr, cc) holds cell (rr - 1, cc - 1), edges copied
         return cell_values(np.clip(rr - 1, 0, grid.n_rows - 1), np.clip(cc - 1, 0, grid.n_cols - 1))
 
+    return _bilinear(v, r, c, fr, fc)
+
+
+def _bilinear(value_at, r, c, fr, fc):
+    """Bilinear interpolation between the nodes (r, c) .. (r + 1, c + 1), given
+    ``value_at(rows, cols)`` of the nodes and the fractions along rows and columns."""
     return (
-        v(r, c) * (1 - fc) * (1 - fr)
-        + v(r, c + 1) * fc * (1 - fr)
-        + v(r + 1, c) * (1 - fc) * fr
-        + v(r + 1, c + 1) * fc * fr
+        value_at(r, c) * (1 - fc) * (1 - fr)
+        + value_at(r, c + 1) * fc * (1 - fr)
+        + value_at(r + 1, c) * (1 - fc) * fr
+        + value_at(r + 1, c + 1) * fc * fr
     )
 
 

@@ -37,7 +37,6 @@ from .belts import (
     walther_contacts,
 )
 from .errors import InputError, PaleomapWarning, Problem
-from .field.normalcdf import distal_probability, moment_probabilities
 from .grid import Grid, make_grid
 from .migration import (
     area_change,
@@ -105,6 +104,8 @@ class SliceMap:
         """Belt probabilities, (n_belts, rows, cols) float32."""
         if self.stored_probabilities is not None:
             return self.stored_probabilities
+        from .field.normalcdf import moment_probabilities
+
         return moment_probabilities(self.latent, self.latent_sd, self.thresholds)
 
     @property
@@ -113,6 +114,8 @@ class SliceMap:
         b = self.tracked_boundary
         if self.stored_probabilities is not None:
             return self.stored_probabilities[b:].sum(axis=0)
+        from .field.normalcdf import distal_probability
+
         return distal_probability(self.latent, self.latent_sd, self.thresholds[b - 1])
 
     def distal_probability_at(self, easting, northing) -> np.ndarray:
@@ -120,6 +123,8 @@ class SliceMap:
         would give it, computed at the points' surrounding cells only."""
         if self.stored_probabilities is not None:
             return node_field(self.distal_probability, self.grid).at(easting, northing)
+        from .field.normalcdf import distal_probability
+
         t = self.thresholds[self.tracked_boundary - 1]
 
         def cells(rows, cols):

@@ -252,24 +252,21 @@ def truncated_normal(
     mean, sd, lower, upper = np.broadcast_arrays(
         *(np.asarray(v, dtype=float) for v in (mean, sd, lower, upper))
     )
+    shape = mean.shape
+    mean, sd, lower, upper = np.atleast_1d(mean, sd, lower, upper)
     x = mean + sd * rng.standard_normal(mean.shape)
     miss = ~((x >= lower) & (x <= upper))
-    if miss.ndim == 0:
-        if miss:
-            x = _truncnorm_inverse(mean, sd, lower, upper, rng.random())
-        return x
-    idx = np.flatnonzero(miss.ravel())
+    idx = np.flatnonzero(miss)
     if idx.size:
-        flat = x.reshape(-1)  # x is a new array: a view we can write through
         # index the broadcast views (no full-size copies of the broadcast inputs)
         where = np.unravel_index(idx, miss.shape)
         m, s, lo, hi = (v[where] for v in (mean, sd, lower, upper))
-        flat[idx] = _truncnorm_inverse(m, s, lo, hi, rng.random(idx.size))
-    return x
+        x.reshape(-1)[idx] = _truncnorm_inverse(m, s, lo, hi, rng.random(idx.size))
+    return x.reshape(shape)
 
 
 def _truncnorm_inverse(mean, sd, lower, upper, u):
-    """Inverse-CDF truncated-normal draw given a uniform ``u``.
+    """Inverse-CDF truncated-normal draw given a uniform ``u`` (1-D arrays).
 
     Intervals are flipped onto the lower half (where Phi keeps its precision); where
     the whole interval lies beyond the lower 1e-10 tail the draw is made in log space
@@ -282,17 +279,11 @@ def _truncnorm_inverse(mean, sd, lower, upper, u):
     b2 = np.where(flip, -a, b)
     pa = special.ndtr(a2)
     pb = special.ndtr(b2)
-    z = np.asarray(special.ndtri(pa + u * (pb - pa)))
-    tail = pb < 1e-10
-    if np.any(tail):
-        if z.ndim == 0:
-            z = np.asarray(
-                _truncnorm_from_uniform(0.0, 1.0, a2, b2, np.log(u), np.log1p(-u)), dtype=float
-            )
-        else:
-            t = np.flatnonzero(tail)
-            ut = u[t]
-            z[t] = _truncnorm_from_uniform(0.0, 1.0, a2[t], b2[t], np.log(ut), np.log1p(-ut))
+    z = special.ndtri(pa + u * (pb - pa))
+    t = np.flatnonzero(pb < 1e-10)
+    if t.size:
+        ut = u[t]
+        z[t] = _truncnorm_from_uniform(0.0, 1.0, a2[t], b2[t], np.log(ut), np.log1p(-ut))
     z = np.clip(z, a2, b2)
     return mean + sd * np.where(flip, -z, z)
 
