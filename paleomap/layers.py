@@ -17,38 +17,12 @@ import numpy as np
 import pandas as pd
 import shapely
 
+from .results import GEOMETRY_TYPES, LAYER_COLUMNS, LAYER_ORDER
+
 if TYPE_CHECKING:
-    from .pipeline import BuildResult
+    from .results import BuildResult
 
 __all__ = ["GEOMETRY_TYPES", "LAYER_ORDER", "build_layers"]
-
-LAYER_ORDER = (
-    "cores",
-    "core_slices",
-    "core_contacts",
-    "facies_belts",
-    "shorelines",
-    "shoreline_bands",
-    "transects",
-    "shoreline_shifts",
-    "shoreline_positions",
-    "slice_pairs",
-    "slice_quality",
-    "run_info",
-)
-"""Layers of ``paleomap.gpkg``, in the order written."""
-
-GEOMETRY_TYPES = {
-    "cores": "Point",
-    "core_slices": "Point",
-    "core_contacts": "Point",
-    "facies_belts": "MultiPolygon",
-    "shorelines": "MultiLineString",
-    "shoreline_bands": "MultiPolygon",
-    "transects": "LineString",
-    "shoreline_shifts": "LineString",
-}
-"""Declared geometry type of each feature layer (needed when a layer is empty)."""
 
 
 def _gdf(rows: list[dict], columns: list[str], crs, geometry="geometry") -> gpd.GeoDataFrame:
@@ -104,7 +78,7 @@ def build_layers(result: BuildResult) -> dict[str, pd.DataFrame]:
 
     s = result.samples
     core_slices = gpd.GeoDataFrame(
-        s[["core_id", "slice", "age", "belt", "rank", "depth"]].reset_index(drop=True),
+        s[list(LAYER_COLUMNS["core_slices"])].reset_index(drop=True),
         geometry=shapely.points(s["easting"].to_numpy(), s["northing"].to_numpy()),
         crs=crs,
     )
@@ -117,7 +91,7 @@ def build_layers(result: BuildResult) -> dict[str, pd.DataFrame]:
             crs=crs,
         )
     else:
-        contacts = _gdf([], ["core_id", "depth", "lower", "upper", "jump", "flag"], crs)
+        contacts = _gdf([], list(LAYER_COLUMNS["core_contacts"]), crs)
 
     belt_rows, line_rows, band_rows, quality_rows = [], [], [], []
     boundary = scheme.boundary_name(scheme.tracked_boundary)
@@ -158,9 +132,9 @@ def build_layers(result: BuildResult) -> dict[str, pd.DataFrame]:
         quality_rows.append(dict(slice=m.slice.name, age=m.slice.age, **m.quality))
     # A slice with no boundary in the mapped area keeps its row (with an empty line),
     # so the GIS and the report show that it was looked for and not found.
-    facies_belts = _gdf(belt_rows, ["slice", "age", "belt", "rank", "marine", "area_km2"], crs)
-    shorelines = _gdf(line_rows, ["slice", "age", "boundary", "length_km"], crs)
-    bands = _gdf(band_rows, ["slice", "age", "boundary", "area_km2"], crs)
+    facies_belts = _gdf(belt_rows, list(LAYER_COLUMNS["facies_belts"]), crs)
+    shorelines = _gdf(line_rows, list(LAYER_COLUMNS["shorelines"]), crs)
+    bands = _gdf(band_rows, list(LAYER_COLUMNS["shoreline_bands"]), crs)
     quality = pd.DataFrame(quality_rows)
 
     transects = _gdf(
@@ -175,7 +149,7 @@ def build_layers(result: BuildResult) -> dict[str, pd.DataFrame]:
             )
             for t in result.transects
         ],
-        ["transect", "azimuth_deg", "length_km", "source", "lsq_rate_m_per_kyr"],
+        list(LAYER_COLUMNS["transects"]),
         crs,
     )
     # result.shifts has the layer's columns already (empty builds included)

@@ -19,7 +19,7 @@ import logging
 import os
 import time
 import warnings
-from dataclasses import dataclass, field
+from dataclasses import dataclass
 from pathlib import Path
 
 import numpy as np
@@ -30,13 +30,12 @@ from ._version import __version__
 from .agemodel import build_age_models, sample_slices
 from .belts import (
     belt_polygons,
-    cell_field_at,
-    classify,
     honour_cores,
     node_field,
     walther_contacts,
 )
 from .errors import InputError, PaleomapWarning, Problem
+from .field.engine import field_settings
 from .grid import Grid, make_grid
 from .migration import (
     area_change,
@@ -49,6 +48,14 @@ from .migration import (
     transect_position,
 )
 from .project import Project, Slice
+from .results import (
+    PAIR_COLUMNS,
+    POSITION_COLUMNS,
+    SHIFT_COLUMNS,
+    BuildResult,
+    SliceMap,
+    Transect,
+)
 from .shoreline import distal_region, shoreline, shoreline_band
 
 __all__ = [
@@ -57,117 +64,10 @@ __all__ = [
     "Transect",
     "build",
     "compute",
-    "field_settings",
     "write_build",
 ]
 
 log = logging.getLogger(__name__)
-
-
-@dataclass(eq=False)
-class SliceMap:
-    """The map of one time slice.
-
-    Grids have the grid's shape (rows north to south): ``latent`` and ``latent_sd``
-    are the latent's predictive mean and standard deviation (float32 on large maps).
-    :attr:`probabilities` (n_belts, rows, cols) float32 and :attr:`distal_probability`
-    (the probability of the distal side of the tracked boundary) are either stored
-    (where the engine averaged them over its samples) or derived from the mean and sd
-    on each access, which is what keeps a build of many large slices in memory.
-    ``polygons[k]`` is belt ``k``'s geometry; ``distal`` the union of the belts on the
-    distal side; :attr:`nodes` the contouring nodes (adjusted so every core lies in its
-    own belt; rebuilt from the latent and the adjustments on each access).
-    """
-
-    slice: Slice
-    core_ids: tuple[str, ...]
-    ranks: np.ndarray
-    thresholds: np.ndarray
-    latent: np.ndarray
-    latent_sd: np.ndarray
-    grid: Grid
-    tracked_boundary: int
-    node_adjustments: tuple
-    polygons: list
-    shoreline: object
-    band: object
-    distal: object
-    stored_probabilities: np.ndarray | None = None
-    quality: dict = field(default_factory=dict)
-
-    def mapped_belt(self) -> np.ndarray:
-        """Belt rank of each cell from the mean latent (the class the polygons show)."""
-        return classify(self.latent, self.thresholds)
-
-    @property
-    def probabilities(self) -> np.ndarray:
-        """Belt probabilities, (n_belts, rows, cols) float32."""
-        if self.stored_probabilities is not None:
-            return self.stored_probabilities
-        from .field.normalcdf import moment_probabilities
-
-        return moment_probabilities(self.latent, self.latent_sd, self.thresholds)
-
-    @property
-    def distal_probability(self) -> np.ndarray:
-        """Probability of the distal side of the tracked boundary, (rows, cols) float32."""
-        b = self.tracked_boundary
-        if self.stored_probabilities is not None:
-            return self.stored_probabilities[b:].sum(axis=0)
-        from .field.normalcdf import distal_probability
-
-        return distal_probability(self.latent, self.latent_sd, self.thresholds[b - 1])
-
-    def distal_probability_at(self, easting, northing) -> np.ndarray:
-        """:attr:`distal_probability` interpolated at points as its contouring nodes
-        would give it, computed at the points' surrounding cells only."""
-        if self.stored_probabilities is not None:
-            return node_field(self.distal_probability, self.grid).at(easting, northing)
-        from .field.normalcdf import distal_probability
-
-        t = self.thresholds[self.tracked_boundary - 1]
-
-        def cells(rows, cols):
-            return distal_probability(self.latent[rows, cols], self.latent_sd[rows, cols], t)
-
-        return cell_field_at(self.grid, easting, northing, cells)
-
-    @property
-    def nodes(self):
-        """The contouring nodes (:class:`paleomap.belts.NodeField`), cores honoured."""
-        nodes = node_field(self.latent, self.grid)
-        rows, cols, shift = self.node_adjustments
-        nodes.values[rows, cols] += shift
-        return nodes
-
-
-@dataclass(frozen=True)
-class Transect:
-    """A migration transect, landward to basinward."""
-
-    transect: str
-    line: object
-    azimuth_deg: float
-    source: str  # "dip" (default) or "user"
-    lsq_rate_m_per_kyr: float = float("nan")
-
-
-@dataclass(eq=False)
-class BuildResult:
-    """Everything a build computed, ready for the writers."""
-
-    project: Project
-    grid: Grid
-    samples: pd.DataFrame
-    slice_maps: list[SliceMap]
-    transects: list[Transect]
-    positions: pd.DataFrame
-    shifts: pd.DataFrame
-    slice_pairs: pd.DataFrame
-    reading: object
-    run_info: dict
-    timings: dict
-    age_models: dict = field(default_factory=dict)
 
 
 class _Stopwatch:
@@ -237,6 +137,8 @@ def compute(project: Project) -> BuildResult:
         dip = regional_dip_azimuth([m.latent for m in maps], grid) if maps else 90.0
         transects, positions = _positions(project, grid, maps, b, dip)
         shifts, pairs, transects = _shifts(project, maps, transects, positions, dip)
+    with sw.stage("chart"):
+        chart = _chart(project, grid, transects, age_models)
     with sw.stage("core reading"):
         reading = _read_cores(project, age_models, pairs)
         if reading is not None and len(pairs):
@@ -255,45 +157,21 @@ def compute(project: Project) -> BuildResult:
         run_info,
         sw.times,
         age_models,
+        chart,
     )
+
+
+def _chart(project: Project, grid: Grid, transects, age_models):
+    """The chronostratigraphic chart along the chart transect (None without transects)."""
+    if not transects:
+        log.info("no transects: no chronostratigraphic chart")
+        return None
+    from .chart import wheeler_section
+
+    return wheeler_section(project, grid, transects, age_models)
 
 
 # --------------------------------------------------------------------------- field
-
-
-def field_settings(project: Project):
-    """The engine's settings from the project's ``[mapping]`` table.
-
-    Returns a :class:`~paleomap.field.shared.SharedSettings` when ``joint`` (the
-    default), else a :class:`~paleomap.field.ordinal.FieldSettings`.
-    """
-    from .field import FieldSettings
-    from .field.shared import SharedSettings
-
-    m = project.mapping
-    overrides = {
-        k: v
-        for k, v in dict(
-            model=None if m.model == "auto" else m.model,
-            range_m=m.range_m,
-            anisotropy=m.anisotropy,
-            azimuth_deg=m.azimuth_deg,
-            nugget=m.nugget,
-        ).items()
-        if v is not None
-    }
-    kwargs = dict(
-        covariance=overrides or None,
-        samples=m.samples,
-        burn_in=m.burn_in,
-        seed=m.seed,
-        deterministic=m.deterministic,
-    )
-    if m.joint:
-        return SharedSettings(**kwargs)
-    if m.neighbours is not None:
-        kwargs["kriging_neighbours"] = m.neighbours
-    return FieldSettings(**kwargs)
 
 
 @dataclass(frozen=True, eq=False)
@@ -555,52 +433,7 @@ def _positions(project: Project, grid: Grid, maps: list[SliceMap], b: int, dip: 
                     crossings=pos.crossings,
                 )
             )
-    return transects, pd.DataFrame(
-        rows,
-        columns=[
-            "transect",
-            "slice",
-            "age",
-            "position_m",
-            "position_low_m",
-            "position_high_m",
-            "crossings",
-        ],
-    )
-
-
-_SHIFT_COLUMNS = [
-    "transect",
-    "older_slice",
-    "younger_slice",
-    "older_age",
-    "younger_age",
-    "shift_m",
-    "shift_low_m",
-    "shift_high_m",
-    "rate_m_per_kyr",
-    "rate_low",
-    "rate_high",
-    "sense",
-    "older_crossings",
-    "younger_crossings",
-    "geometry",
-]
-_PAIR_COLUMNS = [
-    "older_slice",
-    "younger_slice",
-    "older_age",
-    "younger_age",
-    "flooded_km2",
-    "exposed_km2",
-    "net_shift_m",
-    "net_rate_m_per_kyr",
-    "net_dip_shift_m",
-    "net_dip_rate_m_per_kyr",
-    "median_rate_m_per_kyr",
-    "transects_used",
-    "sense",
-]
+    return transects, pd.DataFrame(rows, columns=list(POSITION_COLUMNS))
 
 
 def _ordered_pairs(maps: list[SliceMap]):
@@ -685,8 +518,8 @@ def _shifts(project: Project, maps, transects, positions, dip: float):
                 sense=classify_sense([median], tol)[0],
             )
         )
-    shifts = pd.DataFrame(rows, columns=_SHIFT_COLUMNS)
-    pairs = pd.DataFrame(pair_rows, columns=_PAIR_COLUMNS)
+    shifts = pd.DataFrame(rows, columns=list(SHIFT_COLUMNS))
+    pairs = pd.DataFrame(pair_rows, columns=list(PAIR_COLUMNS))
     # least-squares rate per transect over every slice
     out = []
     for tr in transects:
@@ -765,15 +598,27 @@ def write_build(
 ) -> Path:
     """Write a computed build into ``out`` atomically.
 
-    The folder is written beside ``out`` and moved into place only when complete; an
-    existing build is replaced only with ``overwrite``.
+    The one place that orders the deliverables: the data formats first
+    (:func:`paleomap.io.writers.write_deliverables`: GeoPackage, rasters, rates
+    table), then the figures (:func:`paleomap.figures.all.draw_all`), then the report
+    (:func:`paleomap.report.write_report`). Each only reads ``result``. The folder is
+    written beside ``out`` and moved into place only when complete; an existing build
+    is replaced only with ``overwrite``.
     """
     from .io.atomic import atomic_build_dir
     from .io.writers import write_deliverables
 
     out = Path(out)
     with atomic_build_dir(out, overwrite=overwrite) as tmp:
-        write_deliverables(result, tmp, figures=figures, report=report)
+        write_deliverables(result, tmp)
+        if figures:
+            from .figures.all import draw_all
+
+            draw_all(result, tmp / "figures")
+        if report:
+            from .report import write_report
+
+            write_report(result, tmp)
     return out
 
 

@@ -22,7 +22,7 @@ from pyproj.crs import CoordinateOperation, ProjectedCRS
 
 from .cores import Core
 from .errors import Problem, ProblemLog
-from .figures.palette import belt_colors
+from .palette import belt_colors
 from .scheme import _HEX, BUILTIN_SCHEMES, Belt, Scheme, _scheme_problems, builtin_scheme
 
 __all__ = [

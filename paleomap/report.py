@@ -33,8 +33,10 @@ from typing import TYPE_CHECKING
 import numpy as np
 import pandas as pd
 
+from .results import SHIFT_COLUMNS
+
 if TYPE_CHECKING:
-    from .pipeline import BuildResult
+    from .results import BuildResult
 
 __all__ = [
     "CAUTIONS",
@@ -237,7 +239,7 @@ tracked boundary crosses the mapped area, and the engine's scores (the
 """
 
 
-_PAIR_COLUMNS = [
+_PAIR_SHOWN = [  # of results.PAIR_COLUMNS + PAIR_CORE_COLUMNS, in the order shown
     "older_slice",
     "younger_slice",
     "older_age",
@@ -252,7 +254,7 @@ _PAIR_COLUMNS = [
     "core_sense",
     "agreement",
 ]
-_SHIFT_COLUMNS = [
+_SHIFT_SHOWN = [  # of results.SHIFT_COLUMNS, in the order shown
     "transect",
     "older_slice",
     "younger_slice",
@@ -271,7 +273,7 @@ def _pairs_section(result) -> str:
     shifts = (
         result.shifts.drop(columns=["geometry"], errors="ignore")
         if len(result.shifts)
-        else pd.DataFrame(columns=_SHIFT_COLUMNS)
+        else pd.DataFrame(columns=list(SHIFT_COLUMNS[:-1]))
     )
     tr = pd.DataFrame(
         [
@@ -299,10 +301,10 @@ slices. <code>core_sense</code> is what the cores' stacking says for the same in
 <code>agreement</code> whether it agrees with the map. These are the values of the
 GeoPackage's <code>slice_pairs</code> table, to {SIGNIFICANT_DIGITS} significant
 digits.</p>
-{note}{_table(pairs, _PAIR_COLUMNS, "slice-pairs")}
+{note}{_table(pairs, _PAIR_SHOWN, "slice-pairs")}
 <details><summary>Shifts per transect ({len(shifts)} rows; the
 <code>shoreline_shifts</code> layer)</summary>
-{_table(shifts, _SHIFT_COLUMNS, "shoreline-shifts")}
+{_table(shifts, _SHIFT_SHOWN, "shoreline-shifts")}
 </details>
 <h3>Transects</h3>
 {_table(tr, list(tr.columns) if len(tr) else ["transect"], "transects")}

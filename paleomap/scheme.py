@@ -30,7 +30,7 @@ from dataclasses import dataclass, field
 import numpy as np
 
 from .errors import InputError, Problem
-from .figures.palette import belt_colors
+from .palette import belt_colors
 
 __all__ = ["BUILTIN_SCHEMES", "Belt", "Scheme", "builtin_scheme", "custom_scheme", "phi"]
 

@@ -14,8 +14,8 @@ import pytest
 import rasterio
 from rasterio.transform import Affine
 
-from paleomap.figures.palette import hex_to_rgb
 from paleomap.io.geotiff import CLASS_TAG_PREFIX, write_class_raster, write_float_raster
+from paleomap.palette import hex_to_rgb
 
 CRS = "EPSG:32631"
 TRANSFORM = Affine(250.0, 0.0, 500000.0, 0.0, -250.0, 6010000.0)

@@ -270,7 +270,7 @@ def test_float32_maps_derive_probabilities_from_the_latent(tmp_path, monkeypatch
     # what the engine's moments give, whatever asks for them.
     import paleomap.field.shared as shared
     from paleomap.belts import node_field
-    from paleomap.field.normalcdf import moment_probabilities
+    from paleomap.probability import moment_probabilities
 
     monkeypatch.setattr(shared, "_FAST_BUDGET", 0.0)
     result = compute(load_project(DEMO))

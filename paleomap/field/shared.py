@@ -180,7 +180,7 @@ class SharedResult:
     ``stored_probabilities`` is (points, K) where the belt probabilities are averaged
     over the samples (the float64 path); ``None`` where they follow from the latent's
     mean and sd alone (the float32 path), in which case :attr:`probabilities` derives
-    them on each access (:func:`paleomap.field.normalcdf.moment_probabilities`).
+    them on each access (:func:`paleomap.probability.moment_probabilities`).
     """
 
     latent_mean: np.ndarray
@@ -197,7 +197,7 @@ class SharedResult:
         """Belt probabilities, (points, K) float32."""
         if self.stored_probabilities is not None:
             return self.stored_probabilities
-        from .normalcdf import moment_probabilities
+        from ..probability import moment_probabilities
 
         return moment_probabilities(self.latent_mean, self.latent_sd, self.thresholds).T
 

@@ -34,7 +34,7 @@ from pathlib import Path
 from typing import TYPE_CHECKING
 
 if TYPE_CHECKING:
-    from ..pipeline import BuildResult
+    from ..results import BuildResult
 
 __all__ = ["FigureSpec", "draw_all", "figure_specs"]
 
@@ -70,11 +70,12 @@ def figure_specs(result: BuildResult) -> list[FigureSpec]:
     ['slice_KS1', 'slice_KS2']
     """
     from ..io.writers import safe_name
+    from ..results import chart_transect
     from .corepanel import core_panel
     from .migration import migration_map
     from .positions import position_panel, shoreline_positions
     from .slicemap import age_label, slice_map
-    from .wheeler import chart_transect, wheeler_chart
+    from .wheeler import wheeler_chart
 
     unit = result.project.age_unit
     specs = []
@@ -99,18 +100,20 @@ def figure_specs(result: BuildResult) -> list[FigureSpec]:
             "migration",
         )
     )
-    if result.transects:
-        tr = chart_transect(result).transect
+    if result.chart is not None:
+        ct = result.chart.transect
         specs.append(
             FigureSpec(
-                f"chronostratigraphic_{safe_name(tr)}",
-                f"Chronostratigraphic (Wheeler) chart along {tr}",
+                f"chronostratigraphic_{safe_name(ct)}",
+                f"Chronostratigraphic (Wheeler) chart along {ct}",
                 "Belts along the transect at many ages through the age models; grey hatched "
                 "where there is no record; the shoreline trajectory in red.",
                 lambda: _fig(wheeler_chart(result)),
                 "sections",
             )
         )
+    if result.transects:
+        tr = chart_transect(result.transects).transect
         specs.append(
             FigureSpec(
                 f"core_panel_{safe_name(tr)}",

@@ -27,14 +27,14 @@ from typing import TYPE_CHECKING
 import numpy as np
 import shapely
 
+from ..palette import EDGE_COLOR, FLAG_COLOR, MUTED_COLOR
 from .canvas import figure_style, new_figure
-from .palette import EDGE_COLOR, FLAG_COLOR, MUTED_COLOR
 from .scales import age_cmap, age_norm
 
 if TYPE_CHECKING:
     from matplotlib.axes import Axes
 
-    from ..pipeline import BuildResult
+    from ..results import BuildResult
 
 __all__ = ["MAX_COLUMNS", "column_width", "core_panel", "panel_cores"]
 
@@ -76,9 +76,9 @@ def panel_cores(
         Most cores kept (evenly picked along the transect).
     """
     from ..grid import mean_core_spacing
-    from .wheeler import chart_transect
+    from ..results import chart_transect
 
-    tr = chart_transect(result, transect)
+    tr = chart_transect(result.transects, transect)
     cores = result.project.cores
     e = np.array([c.easting for c in cores])
     n = np.array([c.northing for c in cores])

@@ -21,7 +21,7 @@ from __future__ import annotations
 import math
 from typing import TYPE_CHECKING
 
-from .palette import EDGE_COLOR
+from ..palette import EDGE_COLOR
 
 if TYPE_CHECKING:
     from matplotlib.axes import Axes

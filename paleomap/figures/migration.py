@@ -22,16 +22,16 @@ from typing import TYPE_CHECKING
 import numpy as np
 import shapely
 
+from ..palette import EDGE_COLOR, MUTED_COLOR
 from .canvas import figure_style, new_figure
 from .mapframe import coordinate_labels, north_arrow, scale_bar, set_map_extent
-from .palette import EDGE_COLOR, MUTED_COLOR
 from .scales import age_cmap, age_norm, rate_cmap, rate_norm
 from .shapes import draw_lines
 
 if TYPE_CHECKING:
     from matplotlib.axes import Axes
 
-    from ..pipeline import BuildResult
+    from ..results import BuildResult
 
 __all__ = [
     "MAX_ARROW_TRANSECTS",

@@ -23,13 +23,13 @@ from typing import TYPE_CHECKING
 
 import numpy as np
 
+from ..palette import EDGE_COLOR, MUTED_COLOR, SHORELINE_COLOR
 from .canvas import figure_style, new_figure
-from .palette import EDGE_COLOR, MUTED_COLOR, SHORELINE_COLOR
 
 if TYPE_CHECKING:
     from matplotlib.axes import Axes
 
-    from ..pipeline import BuildResult
+    from ..results import BuildResult
 
 __all__ = ["COLUMNS", "position_panel", "rate_text", "shoreline_positions"]
 
@@ -65,7 +65,7 @@ def rate_text(
 
 
 def _draw(ax, result, transect, *, label_steps: bool):
-    from ..io.styles import SENSE_COLORS
+    from ..palette import SENSE_COLORS
 
     pos = result.positions
     p = pos[pos["transect"] == transect].sort_values("age", ascending=False)
@@ -176,7 +176,7 @@ def shoreline_positions(result: BuildResult, transects=None, axes=None) -> np.nd
     from matplotlib.lines import Line2D
     from matplotlib.patches import Patch
 
-    from ..io.styles import SENSE_COLORS
+    from ..palette import SENSE_COLORS
 
     ids = list(transects) if transects is not None else [t.transect for t in result.transects]
     rates = {t.transect: t.lsq_rate_m_per_kyr for t in result.transects}

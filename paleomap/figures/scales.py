@@ -2,10 +2,10 @@
 
 * **Belts**: the scheme's own colours (:attr:`paleomap.scheme.Scheme.colors`, the
   palette's defaults unless the project overrides a belt's colour).
-* **Ages**: :data:`~paleomap.figures.palette.AGE_COLORMAP`, cut at 85 % of its range so
+* **Ages**: :data:`~paleomap.palette.AGE_COLORMAP`, cut at 85 % of its range so
   the youngest lines stay visible on white; older is darker.
 * **Rates**: diverging, regression orange through stillstand grey to transgression
-  blue (:data:`paleomap.io.styles.SENSE_COLORS`, the GIS styles' colours), symmetric
+  blue (:data:`paleomap.palette.SENSE_COLORS`, the GIS styles' colours), symmetric
   about zero so the hue tells the sense and the depth of colour the speed.
 
 Examples
@@ -18,7 +18,7 @@ from __future__ import annotations
 
 import numpy as np
 
-from .palette import AGE_COLORMAP
+from ..palette import AGE_COLORMAP
 
 __all__ = ["age_cmap", "age_norm", "belt_cmap", "rate_cmap", "rate_norm"]
 
@@ -61,7 +61,7 @@ def rate_cmap():
     """Diverging rate colormap: regression orange, stillstand grey, transgression blue."""
     from matplotlib.colors import LinearSegmentedColormap
 
-    from ..io.styles import SENSE_COLORS
+    from ..palette import SENSE_COLORS
 
     return LinearSegmentedColormap.from_list(
         "paleomap_rate",

@@ -21,6 +21,7 @@ from typing import TYPE_CHECKING
 
 import numpy as np
 
+from ..palette import EDGE_COLOR, MUTED_COLOR, SHORELINE_COLOR
 from .canvas import REPORT_WIDTH_IN, figure_style, new_figure
 from .mapframe import (
     MAP_RIGHT,
@@ -30,13 +31,12 @@ from .mapframe import (
     set_map_extent,
     side_legend,
 )
-from .palette import EDGE_COLOR, MUTED_COLOR, SHORELINE_COLOR
 from .shapes import draw_lines, draw_polygons
 
 if TYPE_CHECKING:
     from matplotlib.axes import Axes
 
-    from ..pipeline import BuildResult, SliceMap
+    from ..results import BuildResult, SliceMap
 
 __all__ = [
     "CORE_MARKER_SIZE",

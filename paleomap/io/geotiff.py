@@ -44,7 +44,7 @@ from pathlib import Path
 
 import numpy as np
 
-from ..figures.palette import hex_to_rgb
+from ..palette import hex_to_rgb
 from .atomic import atomic_output_path, atomic_write_text
 
 __all__ = ["CLASS_TAG_PREFIX", "write_class_raster", "write_float_raster"]

@@ -39,7 +39,7 @@ import re
 import xml.etree.ElementTree as ET
 from collections.abc import Sequence
 
-from ..figures.palette import SHORELINE_COLOR
+from ..palette import SENSE_COLORS, SHORELINE_COLOR
 
 __all__ = [
     "OGC_NS",
@@ -67,13 +67,6 @@ _SCHEMA_LOCATION = f"{SLD_NS} http://schemas.opengis.net/sld/1.1.0/StyledLayerDe
 
 SLD_MIME_TYPE = "application/vnd.ogc.sld+xml"
 """MIME type of an SLD document (OGC 05-078r4)."""
-
-SENSE_COLORS: dict[str, str] = {
-    "transgression": "#0072b2",
-    "regression": "#e69f00",
-    "stillstand": "#8c8c8c",
-}
-"""Colours of shoreline shifts by sense (Okabe & Ito 2008 blue and orange, and a grey)."""
 
 _SENSE_LABELS = {
     "transgression": "Transgression (landward)",

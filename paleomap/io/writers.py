@@ -1,4 +1,7 @@
-"""Writes a computed build into a folder: GeoPackage, rasters, rates table, figures, report.
+"""Writes a computed build's data formats into a folder: GeoPackage, rasters, rates table.
+
+Figures and the report are not written here: :func:`paleomap.pipeline.write_build`
+calls this, then the figures, then the report.
 
 The folder given is the temporary one of :func:`paleomap.io.atomic.atomic_build_dir`;
 nothing here decides where a build ends up.
@@ -19,7 +22,7 @@ from .geotiff import write_class_raster, write_float_raster
 from .styles import belt_categories, layer_styles
 
 if TYPE_CHECKING:
-    from ..pipeline import BuildResult
+    from ..results import BuildResult
 
 __all__ = ["GPKG_NAME", "raster_names", "safe_name", "write_deliverables"]
 
@@ -48,11 +51,11 @@ def raster_names(slice_name: str) -> dict[str, str]:
     }
 
 
-def write_deliverables(
-    result: BuildResult, folder: Path, *, figures: bool = True, report: bool = True
-) -> None:
-    """Write every deliverable of ``result`` into ``folder``."""
-    from ..layers import GEOMETRY_TYPES, build_layers
+def write_deliverables(result: BuildResult, folder: Path) -> None:
+    """Write the data formats of ``result`` into ``folder``: ``paleomap.gpkg``,
+    ``rasters/`` and ``rates.csv``."""
+    from ..layers import build_layers
+    from ..results import GEOMETRY_TYPES
 
     folder = Path(folder)
     project = result.project
@@ -71,14 +74,6 @@ def write_deliverables(
     _write_rasters(result, folder / "rasters")
     shifts = layers["shoreline_shifts"].drop(columns="geometry")
     atomic_write_text(folder / "rates.csv", shifts.to_csv(index=False, float_format="%.6g"))
-    if figures:
-        from ..figures.all import draw_all
-
-        draw_all(result, folder / "figures")
-    if report:
-        from ..report import write_report
-
-        write_report(result, folder)
 
 
 def _write_rasters(result: BuildResult, folder: Path) -> None:

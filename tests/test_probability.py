@@ -5,9 +5,9 @@ import numpy as np
 import pytest
 from scipy import special
 
-from paleomap.field import normalcdf
-from paleomap.field.normalcdf import distal_probability, moment_probabilities, normal_cdf32
+from paleomap import probability as normalcdf
 from paleomap.field.truncgauss import belt_probabilities
+from paleomap.probability import distal_probability, moment_probabilities, normal_cdf32
 
 
 def test_normal_cdf32_matches_scipy_within_1e6():

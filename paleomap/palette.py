@@ -1,6 +1,6 @@
-"""paleomap's own colour palette for facies belts.
+"""paleomap's own colour palette: facies belts, shoreline, shift senses, context.
 
-One place for every colour the maps, rasters and styles use. The belt ramp runs from
+One place for every colour the maps, rasters, GIS styles and report use. The belt ramp runs from
 dark earth tones (most proximal, non-marine) through pale sand to teal and deep blue
 (most distal, marine). Lightness changes monotonically within the non-marine and
 within the marine part, and the two parts differ along the blue-yellow axis, which
@@ -23,6 +23,7 @@ __all__ = [
     "FLAG_COLOR",
     "MUTED_COLOR",
     "NO_RECORD_COLOR",
+    "SENSE_COLORS",
     "SHORELINE_COLOR",
     "belt_colors",
     "hex_to_rgb",
@@ -49,6 +50,13 @@ FLAG_COLOR = "#cc79a7"
 """Reddish purple (Okabe & Ito 2008) for flagged contacts (possible breaks); it stands
 apart from every belt colour and from the shoreline red for common colour-vision
 deficiencies."""
+
+SENSE_COLORS: dict[str, str] = {
+    "transgression": "#0072b2",
+    "regression": "#e69f00",
+    "stillstand": "#8c8c8c",
+}
+"""Colours of shoreline shifts by sense (Okabe & Ito 2008 blue and orange, and a grey)."""
 
 AGE_COLORMAP = "viridis_r"
 """Sequential colormap for ages: matplotlib's ``viridis`` (perceptually uniform, readable
