@@ -314,7 +314,7 @@ def test_chart_transect_prefers_the_middle_default(two_belt):
     ts = two_belt.transects
     assert chart_transect(two_belt.transects) is ts[len(ts) // 2]
     with pytest.raises(KeyError, match="no transect"):
-        chart_transect(two_belt, "nope")
+        chart_transect(two_belt.transects, "nope")
 
 
 # ------------------------------------------------------------------- core panel
