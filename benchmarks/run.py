@@ -157,13 +157,14 @@ def _worker_field(project_file: str, fraction: float) -> dict:
     import numpy as np
 
     import paleomap
-    from paleomap.agemodel import build_age_models, sample_slices
+    from paleomap.agemodel import build_age_models
     from paleomap.grid import Grid, make_grid
     from paleomap.pipeline import _map_fields
+    from paleomap.records import build_records
 
     project = paleomap.load_project(project_file)
     t0 = time.perf_counter()
-    samples = sample_slices(project, age_models=build_age_models(project))
+    records = build_records(project, build_age_models(project))
     t_age = time.perf_counter() - t0
     e = np.array([c.easting for c in project.cores])
     n = np.array([c.northing for c in project.cores])
@@ -187,7 +188,7 @@ def _worker_field(project_file: str, fraction: float) -> dict:
             grid.crs,
         )
         t0 = time.perf_counter()
-        fields = _map_fields(project, samples, band)
+        fields = _map_fields(project, records, band)
         out[label + "_s"] = time.perf_counter() - t0
         out[label + "_rows"] = rows
         del fields

@@ -12,15 +12,15 @@ How the chart is computed (:func:`wheeler_section`, called by
 :attr:`paleomap.results.BuildResult.chart`, which
 :func:`paleomap.figures.wheeler.wheeler_chart` draws):
 
-* **Ages**: ``n_ages`` ages evenly spread from the youngest to the oldest surface (not
-  only the surfaces), each read in every core through its age model
-  (:func:`paleomap.agemodel.sample_slices`; at a surface's own age, at its pick).
-* **Belts along the line**: every charted age is mapped with the build's own model —
-  by default the joint model with a shared relief (:func:`paleomap.field.shared.map_shared`,
-  all charted ages at once, 40 samples), else the per-slice ordinal field
-  (:func:`paleomap.field.map_slices`, deterministic latent means) — kriged only at
-  points along the transect, one cell size apart, which is cheap; each point takes the
-  belt of its mean latent.
+* **Ages**: ``n_ages`` ages evenly spread from the youngest to the oldest surface, and
+  every mapped slice's own age.
+* **Belts along the line**: the build's fitted field engine is asked for the latent
+  at points along the transect, half a cell apart, at every chart age
+  (:meth:`paleomap.field.engine.FittedField.predict`); each point takes the belt of
+  its mean latent. At a slice's age that is the slice map's own field, so the chart's
+  trajectory meets the map's shoreline position there (within a grid cell: the map's
+  position is read from its contouring nodes); between slices the engine conditions
+  on the records at that age (:mod:`paleomap.records`).
 * **No record**: a point has no record at an age where fewer than :data:`MIN_CORES`
   cores record that age at all, or where fewer than half of its nearby cores record it
   (the cores within one mean core spacing of the point, or the three nearest when none
@@ -28,115 +28,95 @@ How the chart is computed (:func:`wheeler_section`, called by
   surface there or outside those cores' dated range. No-record areas are grey and
   hatched.
 * **Trajectory**: at each age, the tracked boundary's position on the line, measured as
-  in :mod:`paleomap.migration` (length on its proximal side, from the landward end);
-  left out where the boundary does not cross the line or falls in a no-record area.
-  The positions from the slice maps are marked on it.
+  in :func:`paleomap.migration.transect_position` (length on its proximal side, from
+  the landward end); left out where the boundary does not cross the line or falls in
+  a no-record area. The positions from the slice maps are marked on it.
 
 The transect is the user's first one, or else the middle default dip transect.
 
 Examples
 --------
->>> section = wheeler_section(project, grid, transects, n_ages=60)   # doctest: +SKIP
+>>> section = wheeler_section(project, grid, transects, records, fitted)   # doctest: +SKIP
 """
 
 from __future__ import annotations
 
 import logging
-from collections.abc import Mapping, Sequence
-from dataclasses import replace
+from collections.abc import Sequence
 from typing import TYPE_CHECKING
 
 import numpy as np
 import shapely
 
-from .agemodel import sample_slices
-from .field import belt_of, map_slices
-from .field.engine import field_settings
-from .grid import mean_core_spacing
 from .results import Transect, WheelerSection, chart_transect
+from .spacing import mean_core_spacing
 
 if TYPE_CHECKING:
+    from .field.engine import FittedField
     from .grid import Grid
     from .project import Project
+    from .records import Records
 
-__all__ = ["DEFAULT_AGES", "MIN_CORES", "wheeler_section"]
+__all__ = ["DEFAULT_AGES", "MIN_CORES", "chart_ages", "wheeler_section"]
 
 log = logging.getLogger(__name__)
 
 DEFAULT_AGES = 60
-"""Ages of a chart, evenly spread between the youngest and the oldest surface."""
+"""Ages of a chart evenly spread between the youngest and the oldest surface (the
+slices' own ages are added to them)."""
 
 MIN_CORES = 3
 """Fewest cores that must record an age for it to be mapped along the chart."""
 
 
-def _chart_slices(project, n_ages: int):
-    from .project import Slice
+def chart_ages(project: Project, n_ages: int = DEFAULT_AGES, slice_ages=()) -> np.ndarray:
+    """The chart's ages, increasing: ``n_ages`` from the youngest to the oldest surface,
+    with ``slice_ages`` added.
 
-    surfaces = sorted(project.surfaces, key=lambda s: s.age)
-    young, old = surfaces[0].age, surfaces[-1].age
-    ages = np.linspace(young, old, max(int(n_ages), 2)) if old > young else np.array([young])
-    by_age = {s.age: s.name for s in surfaces}
-    out = []
-    for i, a in enumerate(ages):
-        name = next(
-            (
-                n
-                for sa, n in by_age.items()
-                if np.isclose(sa, a, rtol=0, atol=1e-9 * max(abs(old), 1.0))
-            ),
-            None,
-        )
-        out.append(Slice(f"_chart_{i:03d}", float(a), name))
-    return out
-
-
-def _field_settings(mapping):
-    from .field import FieldSettings
-
-    overrides = {}
-    if mapping.model not in (None, "auto"):
-        overrides["model"] = mapping.model
-    for key in ("range_m", "anisotropy", "azimuth_deg", "nugget"):
-        v = getattr(mapping, key)
-        if v is not None:
-            overrides[key] = v
-    return FieldSettings(
-        covariance=overrides or None,
-        deterministic=True,
-        seed=mapping.seed,
-        cross_validate=False,
-        outputs=("latent_mean",),
-    )
+    >>> class P: surfaces = [type("S", (), {"age": a})() for a in (10.0, 20.0)]
+    >>> chart_ages(P, 3, [12.5]).tolist()
+    [10.0, 12.5, 15.0, 20.0]
+    """
+    ages = sorted(s.age for s in project.surfaces)
+    young, old = ages[0], ages[-1]
+    even = np.linspace(young, old, max(int(n_ages), 2)) if old > young else np.array([young])
+    return np.union1d(even, np.asarray(list(slice_ages), dtype=float))
 
 
 def wheeler_section(
     project: Project,
     grid: Grid,
     transects: Sequence[Transect],
-    age_models: Mapping | None = None,
+    records: Records,
+    fitted: FittedField,
     transect: str | None = None,
     *,
+    slice_ages: Sequence[float] = (),
     n_ages: int = DEFAULT_AGES,
     step_m: float | None = None,
 ) -> WheelerSection:
-    """Belts along a transect at ``n_ages`` ages, with no-record areas and the trajectory.
+    """Belts along a transect at the chart's ages, with no-record areas and the trajectory.
 
     Parameters
     ----------
     project : Project
     grid : Grid
-        The build's grid (its cell size is the default step along the line).
+        The build's grid (half its cell size is the default step along the line).
     transects : sequence of Transect
         The build's transects.
-    age_models : mapping, optional
-        The build's age models (built again when not given).
+    records : Records
+        The cores' dated belt records (what the engine was fitted to).
+    fitted : FittedField
+        The build's fitted field engine.
     transect : str, optional
         Transect id; default :func:`paleomap.results.chart_transect`.
+    slice_ages : sequence of float
+        The mapped slices' ages, charted besides the ``n_ages`` even ones.
     n_ages : int
-        Number of ages between the youngest and the oldest surface.
+        Number of even ages between the youngest and the oldest surface.
     step_m : float, optional
-        Spacing of the points along the transect; default one grid cell.
+        Spacing of the points along the transect; default half a grid cell (the
+        spacing the slice maps' positions are read at).
 
     Returns
     -------
@@ -144,22 +124,19 @@ def wheeler_section(
 
     Examples
     --------
-    >>> s = wheeler_section(project, grid, transects, n_ages=40)   # doctest: +SKIP
-    >>> s.ranks.shape                            # doctest: +SKIP
-    (40, 180)
+    >>> s = wheeler_section(project, grid, transects, records, fitted)   # doctest: +SKIP
+    >>> s.ranks.shape                                                    # doctest: +SKIP
+    (68, 360)
     """
     from scipy.spatial import cKDTree
 
     tr = chart_transect(transects, transect)
     line = tr.line
-    step = float(step_m or grid.cell_size)
+    step = float(step_m or grid.cell_size / 2)
     n_pts = max(2, int(np.ceil(line.length / step)) + 1)
     dist = np.linspace(0.0, line.length, n_pts)
     xy = shapely.get_coordinates(shapely.line_interpolate_point(line, dist))
-
-    slices = _chart_slices(project, n_ages)
-    ages = np.array([s.age for s in slices])
-    samples = sample_slices(project, slices, age_models or None)
+    ages = chart_ages(project, n_ages, slice_ages)
 
     ids = [c.core_id for c in project.cores]
     index = {c: i for i, c in enumerate(ids)}
@@ -175,67 +152,30 @@ def wheeler_section(
     nearest = np.atleast_2d(nearest).reshape(len(xy), k)
     neighbours = [np.asarray(nb if nb else nearest[i], dtype=int) for i, nb in enumerate(near)]
 
-    n_belts = project.scheme.n_belts
-    ranks = np.full((len(slices), n_pts), -1, dtype=int)
-    recording = np.zeros(len(slices), dtype=int)
-    by_slice, uniform = {}, {}
-    groups = samples.groupby("slice", sort=False)
-    for j, sl in enumerate(slices):
-        if sl.name not in groups.groups:
-            continue
-        rows = groups.get_group(sl.name)
-        recording[j] = len(rows)
-        if len(rows) < MIN_CORES:
-            continue
-        idx = np.array([index[c] for c in rows["core_id"]])
-        r = rows["rank"].to_numpy(int)
-        if np.unique(r).size == 1:
-            uniform[j] = int(r[0])
-        else:
-            by_slice[j] = (idx, r)
-    if project.mapping.joint and (by_slice or uniform):
-        # The same joint model as the slice maps, over every charted age at once, so
-        # the chart and the maps tell one story.
-        from .field.shared import map_shared
+    # which cores record each age
+    has = np.zeros((ages.size, len(ids)), dtype=bool)
+    for j, a in enumerate(ages):
+        has[j, [index[c] for c in records.core_id[records.spanning(a)]]] = True
+    recording = has.sum(axis=1)
 
-        every = dict(by_slice)
-        for j in uniform:
-            rows = groups.get_group(slices[j].name)
-            every[j] = (np.array([index[c] for c in rows["core_id"]]), rows["rank"].to_numpy(int))
-        settings = replace(field_settings(project), samples=40, burn_in=60)
-        fields, _fit = map_shared(ce, cn, every, xy[:, 0], xy[:, 1], n_belts, settings)
-        for j, fr in fields.items():
-            ranks[j] = belt_of(fr.latent_mean, fr.thresholds)
-        uniform = {}
-    elif by_slice:
-        fields, _fit = map_slices(
-            ce, cn, by_slice, xy[:, 0], xy[:, 1], n_belts, _field_settings(project.mapping)
-        )
-        for j, fr in fields.items():
-            ranks[j] = belt_of(fr.latent_mean, fr.thresholds)
-    for j, r in uniform.items():
-        ranks[j] = r
-
+    ranks = np.full((ages.size, n_pts), -1, dtype=int)
+    mapped_rows = np.flatnonzero(recording >= MIN_CORES)
+    if mapped_rows.size:
+        pred = fitted.predict(xy[:, 0], xy[:, 1], ages[mapped_rows])
+        for i, j in enumerate(mapped_rows):
+            ranks[j] = pred.belts(i)
     mapped = ranks.copy()
     # no record where most nearby cores do not record the age
-    has = np.zeros((len(slices), len(ids)), dtype=bool)
-    slice_pos = {s.name: j for j, s in enumerate(slices)}
-    if len(samples):
-        has[
-            samples["slice"].map(slice_pos).to_numpy(int),
-            samples["core_id"].map(index).to_numpy(int),
-        ] = True
     for i, nb in enumerate(neighbours):
         share = has[:, nb].mean(axis=1)
         ranks[share < 0.5, i] = -1
-    ranks[recording < MIN_CORES] = -1
 
     b = project.scheme.tracked_boundary
     ds = line.length / (n_pts - 1)
     w = np.full(n_pts, ds)
     w[0] = w[-1] = ds / 2
-    boundary = np.full(len(slices), np.nan)
-    for j in range(len(slices)):
+    boundary = np.full(ages.size, np.nan)
+    for j in range(ages.size):
         row = mapped[j]
         if (row < 0).any():
             continue  # not mapped at this age
@@ -257,7 +197,7 @@ def wheeler_section(
     log.debug(
         "chart along %s: %d ages x %d points, %.0f%% with a record",
         tr.transect,
-        len(slices),
+        ages.size,
         n_pts,
         100 * np.mean(ranks >= 0),
     )

@@ -26,6 +26,7 @@ import shapely
 from affine import Affine
 
 from .errors import InputError, Problem
+from .spacing import mean_core_spacing
 
 __all__ = ["MAX_GRID_CELLS", "Grid", "default_margin", "make_grid", "mean_core_spacing"]
 
@@ -102,27 +103,6 @@ class Grid:
         col = np.floor((np.asarray(easting) - self.west) / self.cell_size).astype(int)
         row = np.floor((self.north - np.asarray(northing)) / self.cell_size).astype(int)
         return row, col
-
-
-def mean_core_spacing(easting: np.ndarray, northing: np.ndarray) -> float:
-    """Mean core spacing: the square root of the core hull's area per core.
-
-    Falls back to the mean nearest-neighbour distance when the hull has no area
-    (fewer than three cores, or collinear cores).
-    """
-    pts = shapely.points(np.column_stack([easting, northing]))
-    hull = shapely.convex_hull(shapely.multipoints(pts))
-    n = len(easting)
-    if hull.area > 0 and n >= 3:
-        return float(np.sqrt(hull.area / n))
-    if n < 2:
-        return float("nan")
-    from scipy.spatial import cKDTree
-
-    d, _ = cKDTree(np.column_stack([easting, northing])).query(
-        np.column_stack([easting, northing]), k=2
-    )
-    return float(np.mean(d[:, 1]))
 
 
 def default_margin(easting: np.ndarray, northing: np.ndarray) -> float:

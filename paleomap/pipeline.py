@@ -16,7 +16,6 @@ from __future__ import annotations
 import contextlib
 import datetime as _dt
 import logging
-import os
 import time
 import warnings
 from dataclasses import dataclass
@@ -35,7 +34,8 @@ from .belts import (
     walther_contacts,
 )
 from .errors import InputError, PaleomapWarning, Problem
-from .field.engine import field_settings
+from .field.engine import get_engine
+from .field.tiling import default_threads
 from .grid import Grid, make_grid
 from .migration import (
     area_change,
@@ -48,6 +48,7 @@ from .migration import (
     transect_position,
 )
 from .project import Project, Slice
+from .records import Records, build_records
 from .results import (
     PAIR_COLUMNS,
     POSITION_COLUMNS,
@@ -86,13 +87,18 @@ class _Stopwatch:
             self.times[name] = self.times.get(name, 0.0) + time.perf_counter() - t
 
 
-def compute(project: Project) -> BuildResult:
+def compute(project: Project, *, settings=None) -> BuildResult:
     """Run every stage of a build on a validated project; write nothing.
 
     Parameters
     ----------
     project : Project
         From :func:`paleomap.load_project`.
+    settings : optional
+        The field engine's settings, instead of those the project's ``[mapping]``
+        table gives (``engine.settings(project.mapping)``): for studies and benchmarks
+        that set what the project file does not (e.g. the shared-relief engine's
+        :class:`~paleomap.field.shared.PathSettings`).
 
     Returns
     -------
@@ -103,6 +109,7 @@ def compute(project: Project) -> BuildResult:
     with sw.stage("age models"):
         age_models = build_age_models(project)
         samples = sample_slices(project, age_models=age_models)
+        records = build_records(project, age_models)
     with sw.stage("grid"):
         e = np.array([c.easting for c in project.cores])
         n = np.array([c.northing for c in project.cores])
@@ -115,7 +122,7 @@ def compute(project: Project) -> BuildResult:
             crs=project.working_crs,
         )
     with sw.stage("field"):
-        fields = _map_fields(project, samples, grid)
+        fitted, fields = _map_fields(project, records, grid, settings)
     if not fields:
         raise InputError(
             [
@@ -138,7 +145,7 @@ def compute(project: Project) -> BuildResult:
         transects, positions = _positions(project, grid, maps, b, dip)
         shifts, pairs, transects = _shifts(project, maps, transects, positions, dip)
     with sw.stage("chart"):
-        chart = _chart(project, grid, transects, age_models)
+        chart = _chart(project, grid, transects, records, fitted, maps)
     with sw.stage("core reading"):
         reading = _read_cores(project, age_models, pairs)
         if reading is not None and len(pairs):
@@ -158,17 +165,20 @@ def compute(project: Project) -> BuildResult:
         sw.times,
         age_models,
         chart,
+        records,
+        fitted,
     )
 
 
-def _chart(project: Project, grid: Grid, transects, age_models):
+def _chart(project: Project, grid: Grid, transects, records, fitted, maps):
     """The chronostratigraphic chart along the chart transect (None without transects)."""
     if not transects:
         log.info("no transects: no chronostratigraphic chart")
         return None
     from .chart import wheeler_section
 
-    return wheeler_section(project, grid, transects, age_models)
+    slice_ages = [m.slice.age for m in maps]
+    return wheeler_section(project, grid, transects, records, fitted, slice_ages=slice_ages)
 
 
 # --------------------------------------------------------------------------- field
@@ -189,129 +199,69 @@ class _SliceField:
     quality: dict
 
 
-def _map_fields(project: Project, samples: pd.DataFrame, grid: Grid):
-    """Ordinal fields of every slice, sharing kriging work between slices with the same
-    cores. Returns [(Slice, _SliceField)] in slice order (oldest first)."""
-    from .field import map_slices
-
+def _map_fields(project: Project, records: Records, grid: Grid, settings=None):
+    """Fit the project's field engine to the records for every slice with a record in
+    two or more cores and predict it on the grid. Returns the fitted model and
+    [(Slice, _SliceField)] in slice order (oldest first)."""
     ids = [c.core_id for c in project.cores]
-    index = {cid: i for i, cid in enumerate(ids)}
-    e = np.array([c.easting for c in project.cores])
-    n = np.array([c.northing for c in project.cores])
-    by_slice = {}
+    mapped = []
     for sl in project.slices:
-        rows = samples[samples["slice"] == sl.name]
-        if len(rows) < 2:
+        count = records.spanning(sl.age).size
+        if count < 2:
             warnings.warn(
-                f"slice {sl.name!r}: only {len(rows)} core(s) have a record at "
+                f"slice {sl.name!r}: only {count} core(s) have a record at "
                 f"{sl.age:g} {project.age_unit}; the slice is not mapped",
                 PaleomapWarning,
                 stacklevel=2,
             )
             continue
-        if len(rows) < len(ids) / 2:
+        if count < len(ids) / 2:
             warnings.warn(
-                f"slice {sl.name!r}: only {len(rows)} of {len(ids)} cores have a record at "
+                f"slice {sl.name!r}: only {count} of {len(ids)} cores have a record at "
                 f"{sl.age:g} {project.age_unit} (a hiatus or erosion removed the rest, or "
                 "their picks do not bracket the age); the map rests on those cores alone",
                 PaleomapWarning,
                 stacklevel=2,
             )
-        by_slice[sl.name] = (
-            np.array([index[c] for c in rows["core_id"]]),
-            rows["rank"].to_numpy(int),
-        )
-    if not by_slice:
-        return []
-    ce, cn = grid.cell_centres()
-    settings = field_settings(project)
-    if project.mapping.joint:
-        return _joint_fields(project, by_slice, ids, e, n, ce, cn, settings)
-    results, fit = map_slices(e, n, by_slice, ce, cn, project.scheme.n_belts, settings)
-    cov = fit.covariance.as_dict()
-    out = []
-    for sl in project.slices:
-        if sl.name not in results:
-            continue
-        r = results[sl.name]
-        model = r.model
-        idx = np.asarray(model.core_index)
-        cv = model.cross_validation
-        quality = dict(
-            method="per_slice",
-            loo_share_in_own_belt=float(cv.share_in_own_belt) if cv else np.nan,
-            loo_mean_abs_rank_error=float(cv.mean_abs_rank_error) if cv else np.nan,
-            **_cov_fields(cov, "relief"),
-        )
-        out.append(
-            (
-                sl,
-                _SliceField(
-                    tuple(ids[i] for i in idx),
-                    e[idx],
-                    n[idx],
-                    np.asarray(model.ranks),
-                    np.asarray(model.thresholds),
-                    r.latent_mean,
-                    r.latent_sd,
-                    r.probabilities,
-                    quality,
-                ),
-            )
-        )
-    return out
-
-
-def _cov_fields(cov: dict, prefix: str) -> dict:
-    return {f"{prefix}_{k}": v for k, v in cov.items()}
-
-
-def _joint_fields(project, by_slice, ids, e, n, ce, cn, settings):
-    from .field.shared import map_shared
-
-    records = sum(len(idx) for idx, _ in by_slice.values())
+        mapped.append(sl)
+    if not mapped:
+        return None, []
+    engine = get_engine(project.mapping.engine)
+    if settings is None:
+        settings = engine.settings(project.mapping)
+    ages = [sl.age for sl in mapped]
     log.info(
-        "field: sampling the latent at %d records of %d slices, then mapping %d cells per slice",
-        records,
-        len(by_slice),
-        ce.size,
+        "field (%s): %d records of %d cores, %d slices, %d cells per slice",
+        engine.name,
+        len(records),
+        len(records.cores()[0]),
+        len(mapped),
+        grid.n_rows * grid.n_cols,
     )
-    results, fit = map_shared(e, n, by_slice, ce, cn, project.scheme.n_belts, settings)
-    relief = _cov_fields(fit.relief.as_dict(), "relief")
-    local = {
-        "slice_residual_variance": float(fit.local.sill),
-        "slice_residual_range_m": float(fit.local.range_m),
-    }
+    fitted = engine.fit(records, project.scheme.n_belts, settings, ages)
+    ce, cn = grid.cell_centres()
+    pred = fitted.predict(ce, cn, ages)
+    del ce, cn
     out = []
-    for sl in project.slices:
-        if sl.name not in results:
-            continue
-        r = results[sl.name]
-        idx = np.asarray(r.core_index)
-        quality = dict(
-            method="joint",
-            loo_share_in_own_belt=r.share_in_own_belt,
-            loo_mean_abs_rank_error=r.mean_abs_rank_error,
-            **relief,
-            **local,
-        )
+    for i, sl in enumerate(mapped):
+        idx = records.spanning(sl.age)
         out.append(
             (
                 sl,
                 _SliceField(
-                    tuple(ids[i] for i in idx),
-                    e[idx],
-                    n[idx],
-                    r.ranks,
-                    r.thresholds,
-                    r.latent_mean,
-                    r.latent_sd,
-                    r.stored_probabilities,
-                    quality,
+                    tuple(records.core_id[idx]),
+                    records.easting[idx],
+                    records.northing[idx],
+                    records.rank[idx],
+                    np.asarray(pred.thresholds[i]),
+                    pred.latent_mean[i],
+                    pred.latent_sd[i],
+                    pred.stored_probabilities[i],
+                    fitted.quality(sl.age),
                 ),
             )
         )
-    return out
+    return fitted, out
 
 
 def _belt_maps(project: Project, grid: Grid, fields, b: int) -> list[SliceMap]:
@@ -324,15 +274,13 @@ def _belt_maps(project: Project, grid: Grid, fields, b: int) -> list[SliceMap]:
         log.info("belts: slice %s (%d of %d)", sl.name, i + 1, count)
         return _slice_map(project, grid, sl, fr, b)
 
-    if _THREADS < 2 or count < 2:
+    threads = default_threads()
+    if threads < 2 or count < 2:
         return [one(i) for i in range(count)]
     from concurrent.futures import ThreadPoolExecutor
 
-    with ThreadPoolExecutor(_THREADS) as pool:
+    with ThreadPoolExecutor(threads) as pool:
         return list(pool.map(one, range(count)))
-
-
-_THREADS = min(2, os.cpu_count() or 1)
 
 
 def _slice_map(project: Project, grid: Grid, sl: Slice, fr, b: int) -> SliceMap:

@@ -1,4 +1,10 @@
-"""Belt probabilities from a Gaussian latent's mean and standard deviation, fast.
+"""Belt probabilities from a Gaussian latent: the one home of the formula.
+
+``P(belt k) = Phi((t_k+1 - m) / s) - Phi((t_k - m) / s)`` for a latent of mean ``m``
+and standard deviation ``s`` cut at thresholds ``t`` (``t_0 = -inf``, ``t_K = +inf``):
+:func:`belt_probabilities` (float64, any shape), :func:`sample_averaged_probabilities`
+(the same averaged over samples of the mean, each with a common sd), and the fast
+float32 :func:`moment_probabilities` and :func:`distal_probability` for whole maps.
 
 Where a map's belt probabilities follow from the latent's predictive mean and standard
 deviation alone (``P(belt k) = Phi((t_k+1 - m) / s) - Phi((t_k - m) / s)``), they need
@@ -28,7 +34,13 @@ import os
 
 import numpy as np
 
-__all__ = ["distal_probability", "moment_probabilities", "normal_cdf32"]
+__all__ = [
+    "belt_probabilities",
+    "distal_probability",
+    "moment_probabilities",
+    "normal_cdf32",
+    "sample_averaged_probabilities",
+]
 
 # erfcc coefficients (Press et al. 1992, section 6.2), highest order first for Horner.
 _ERFCC = (
@@ -44,7 +56,6 @@ _ERFCC = (
     -1.26551223,
 )
 _BLOCK = 1 << 15  # values per block: a few arrays of it fit in a core's L2 cache
-_THREADS = min(2, os.cpu_count() or 1)
 
 
 def _cdf_block(x: np.ndarray, out: np.ndarray) -> None:
@@ -68,9 +79,10 @@ def _cdf_block(x: np.ndarray, out: np.ndarray) -> None:
     np.copyto(out, np.where(x < 0, poly, t))
 
 
-def _blocked(fn, n: int) -> None:
+def _blocked(fn, n: int, threads: int | None) -> None:
     spans = [(a, min(a + _BLOCK, n)) for a in range(0, n, _BLOCK)]
-    if _THREADS > 1 and len(spans) > 4:
+    threads = min(2, os.cpu_count() or 1) if threads is None else threads
+    if threads > 1 and len(spans) > 4:
         from concurrent.futures import ThreadPoolExecutor
 
         half = (len(spans) + 1) // 2
@@ -86,10 +98,11 @@ def _blocked(fn, n: int) -> None:
             fn(a, b)
 
 
-def normal_cdf32(x) -> np.ndarray:
+def normal_cdf32(x, *, threads: int | None = None) -> np.ndarray:
     """Standard normal CDF in float32 (absolute error below 1e-6).
 
-    NaN stays NaN; ``±inf`` give 1 and 0.
+    NaN stays NaN; ``±inf`` give 1 and 0. ``threads``: 1 or 2 (None: two where the
+    machine has them); the result is the same.
 
     >>> [round(float(v), 5) for v in normal_cdf32(np.array([-np.inf, -1.0, 0.0, 1.959964, np.inf]))]
     [0.0, 0.15866, 0.5, 0.975, 1.0]
@@ -102,12 +115,14 @@ def normal_cdf32(x) -> np.ndarray:
         with np.errstate(over="ignore", invalid="ignore"):
             _cdf_block(xf[a:b], of[a:b])
 
-    _blocked(block, xf.size)
+    _blocked(block, xf.size, threads)
     return out
 
 
-def moment_probabilities(mean, sd, thresholds) -> np.ndarray:
+def moment_probabilities(mean, sd, thresholds, *, threads: int | None = None) -> np.ndarray:
     """Belt probabilities (K, ...) float32 from the latent's mean and sd (any shape).
+
+    ``threads`` as in :func:`normal_cdf32`.
 
     ``sd`` must be positive. Every cell's probabilities sum to 1 within float32
     rounding.
@@ -142,7 +157,7 @@ def moment_probabilities(mean, sd, thresholds) -> np.ndarray:
     if K == 1:
         out[0] = 1.0
         return out
-    _blocked(block, mf.size)
+    _blocked(block, mf.size, threads)
     return out
 
 
@@ -156,3 +171,72 @@ def distal_probability(mean, sd, threshold: float) -> np.ndarray:
     m = np.asarray(mean, dtype=np.float32)
     s = np.asarray(sd, dtype=np.float32)
     return normal_cdf32((m - np.float32(threshold)) / s)
+
+
+def belt_probabilities(mean, sd, threshold, dtype=np.float64) -> np.ndarray:
+    """``Phi((t_{k+1} - mean) / sd) - Phi((t_k - mean) / sd)`` for every belt.
+
+    Parameters
+    ----------
+    mean, sd : array_like
+        Broadcastable arrays; ``sd`` may be 0 (a step at the thresholds).
+    threshold : array_like
+        (K-1,) thresholds.
+
+    Returns
+    -------
+    numpy.ndarray
+        ``mean.shape + (K,)``, each row summing to 1.
+
+    Examples
+    --------
+    >>> belt_probabilities(0.0, 1.0, [0.0]).tolist()
+    [0.5, 0.5]
+    """
+    from scipy import special
+
+    mean = np.asarray(mean, dtype=dtype)
+    sd = np.asarray(sd, dtype=dtype)
+    t = np.asarray(threshold, dtype=dtype)
+    with np.errstate(divide="ignore", invalid="ignore"):
+        z = (t - mean[..., None]) / sd[..., None]
+    # sd == 0 gives +-inf (fine for ndtr) or nan where mean sits on a threshold.
+    z = np.where(np.isnan(z), 0.0, z).astype(dtype, copy=False)
+    cdf = special.ndtr(z)
+    shape = cdf.shape[:-1] + (1,)
+    cdf = np.concatenate([np.zeros(shape, dtype), cdf, np.ones(shape, dtype)], axis=-1)
+    return np.diff(cdf, axis=-1)
+
+
+def sample_averaged_probabilities(mean_samples, sd, threshold) -> np.ndarray:
+    """Belt probabilities averaged over samples of the mean, float64.
+
+    Parameters
+    ----------
+    mean_samples : array_like
+        (n_points, n_samples) the latent's mean under each sample.
+    sd : array_like
+        (n_points,) the standard deviation about each sample's mean (the same for all).
+    threshold : array_like
+        (K-1,) thresholds.
+
+    Returns
+    -------
+    numpy.ndarray
+        (n_points, K), rows summing to 1.
+
+    Examples
+    --------
+    >>> p = sample_averaged_probabilities(np.array([[-1.0, 1.0]]), np.array([1e-9]), [0.0])
+    >>> p.tolist()
+    [[0.5, 0.5]]
+    """
+    from scipy import special
+
+    mu = np.asarray(mean_samples, dtype=float)
+    s0 = np.asarray(sd, dtype=float)[:, None, None]
+    t = np.asarray(threshold, dtype=float)
+    cdf = special.ndtr((t[None, None, :] - mu[..., None]) / s0).mean(axis=1)
+    m = mu.shape[0]
+    full = np.concatenate([np.zeros((m, 1)), cdf, np.ones((m, 1))], axis=1)
+    return np.diff(full, axis=1)

@@ -22,6 +22,7 @@ from pyproj.crs import CoordinateOperation, ProjectedCRS
 
 from .cores import Core
 from .errors import Problem, ProblemLog
+from .field.engine import ENGINES
 from .io.sources import INPUT_KEYS, InputSources, read_sources
 from .palette import belt_colors
 from .scheme import _HEX, BUILTIN_SCHEMES, Belt, Scheme, _scheme_problems, builtin_scheme
@@ -123,10 +124,12 @@ class MappingSettings:
         Skip sampling; use each core's truncated-interval mean (fast).
     neighbours : int or None
         Cores in a local kriging neighbourhood; ``None`` lets paleomap choose.
-    joint : bool
-        Map all slices together with a latent relief shared between them (the
-        inherited paleotopography; :mod:`paleomap.field.shared`), or each slice on its
-        own (:mod:`paleomap.field.ordinal`).
+    engine : str
+        The field engine, by its name in :data:`paleomap.field.engine.ENGINES`:
+        ``"shared_relief"`` (default; all slices mapped together with a latent relief
+        shared between them, the inherited paleotopography) or ``"per_slice"`` (each
+        slice on its own). The project file's older ``joint = true/false`` still selects
+        them, with a deprecation warning.
     """
 
     model: str = "auto"
@@ -139,7 +142,7 @@ class MappingSettings:
     seed: int = 0
     deterministic: bool = False
     neighbours: int | None = None
-    joint: bool = True
+    engine: str = "shared_relief"
 
 
 @dataclass(frozen=True)
@@ -233,6 +236,7 @@ _TABLES = {
         "seed",
         "deterministic",
         "neighbours",
+        "engine",
         "joint",
     ),
     "migration": ("transects", "transect_spacing_m", "stillstand_m_per_kyr"),
@@ -1000,8 +1004,26 @@ class _ConfigReader:
             "seed": self.number(table, p, "seed", minimum=0, integer=True),
             "deterministic": self.boolean(table, p, "deterministic"),
             "neighbours": self.number(table, p, "neighbours", minimum=3, integer=True),
-            "joint": self.boolean(table, p, "joint"),
+            "engine": self.text(table, p, "engine", required=False, choices=tuple(ENGINES)),
         }
+        joint = self.boolean(table, p, "joint")
+        if joint is not None:
+            engine = "shared_relief" if joint else "per_slice"
+            if "engine" in table:
+                self.warn(
+                    ("mapping", "joint"),
+                    joint,
+                    "[mapping] joint is deprecated and ignored beside engine",
+                    "delete the joint line",
+                )
+            else:
+                self.warn(
+                    ("mapping", "joint"),
+                    joint,
+                    "[mapping] joint is deprecated (it will be removed in the next release)",
+                    f'write engine = "{engine}" instead',
+                )
+                values["engine"] = engine
         return replace(d, **{k: v for k, v in values.items() if v is not None})
 
     def read_migration(self, lines: dict) -> MigrationSettings:

@@ -31,7 +31,9 @@ if TYPE_CHECKING:
     import pandas as pd
 
     from .grid import Grid
+    from .field.engine import FittedField
     from .project import Project, Slice
+    from .records import Records
 
 __all__ = [
     "GEOMETRY_TYPES",
@@ -252,7 +254,9 @@ class BuildResult:
     ``positions``, ``shifts`` and ``slice_pairs`` have the columns
     :data:`POSITION_COLUMNS`, :data:`SHIFT_COLUMNS` and :data:`PAIR_COLUMNS`
     (+ :data:`PAIR_CORE_COLUMNS`); ``chart`` is the chronostratigraphic chart's
-    section (None when the build has no transect).
+    section (None when the build has no transect); ``records`` the cores' dated belt
+    records the field engine was fitted to and ``field`` the fitted engine, whose
+    ``predict`` gives the latent at any points and ages.
     """
 
     project: Project
@@ -268,6 +272,8 @@ class BuildResult:
     timings: dict
     age_models: dict = field(default_factory=dict)
     chart: WheelerSection | None = None
+    records: Records | None = None
+    field: FittedField | None = None
 
 
 @dataclass(frozen=True, eq=False)

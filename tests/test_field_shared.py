@@ -2,11 +2,14 @@
 
 from __future__ import annotations
 
+from dataclasses import replace
+
 import numpy as np
 import pytest
 
 import paleomap.field.shared as shared
-from paleomap.field.shared import SharedSettings, map_shared
+from paleomap.field.shared import PathSettings, SharedSettings, map_shared
+from paleomap.field.tiling import square_tiles
 
 
 def _basin(n_cores=30, n_slices=3, seed=0, drop=True):
@@ -53,27 +56,29 @@ def test_shared_weights_equal_direct_solve_per_slice(probability):
         np.testing.assert_allclose(a.probabilities, b.probabilities, rtol=0, atol=1e-6)
 
 
-def test_fast_path_matches_exact_path(monkeypatch):
+def test_fast_path_matches_exact_path():
     # float32 tiles, the local residual from nearby cores only and the spread in a
     # principal-component basis keep probabilities within 1e-4 of the float64 path.
     e, n, slices = _basin(n_cores=60, n_slices=4, seed=3)
     te, tn = _targets(500.0)
     st = SharedSettings(samples=16, burn_in=10, chains=4, probability="moments")
-    monkeypatch.setattr(shared, "_FAST_BUDGET", 1e30)
-    exact, _ = map_shared(e, n, slices, te, tn, 4, st)
-    monkeypatch.setattr(shared, "_FAST_BUDGET", 0.0)
-    monkeypatch.setattr(shared, "_TILE_POINTS", 300)  # many tiles
-    fast, _ = map_shared(e, n, slices, te, tn, 4, st)
+    exact, _ = map_shared(
+        e, n, slices, te, tn, 4, replace(st, paths=PathSettings(fast_budget=1e30))
+    )
+    # many tiles
+    fast_paths = PathSettings(fast_budget=0.0, tile_points=300)
+    fast, _ = map_shared(e, n, slices, te, tn, 4, replace(st, paths=fast_paths))
     for k in slices:
         np.testing.assert_allclose(fast[k].latent_mean, exact[k].latent_mean, atol=1e-4)
         np.testing.assert_allclose(fast[k].latent_sd, exact[k].latent_sd, atol=1e-4)
         np.testing.assert_allclose(fast[k].probabilities, exact[k].probabilities, atol=1e-4)
 
 
-def test_fast_path_honours_cores_and_sums_to_one(monkeypatch):
+@pytest.mark.parametrize("threads", [1, 2])
+def test_fast_path_honours_cores_and_sums_to_one(threads):
     e, n, slices = _basin(n_cores=40, seed=5)
-    monkeypatch.setattr(shared, "_FAST_BUDGET", 0.0)
-    res, fit = map_shared(e, n, slices, e, n, 4, SETTINGS)
+    st = replace(SETTINGS, paths=PathSettings(fast_budget=0.0, tile_points=64, threads=threads))
+    res, fit = map_shared(e, n, slices, e, n, 4, st)
     for k, (idx, ranks) in slices.items():
         r = res[k]
         assert r.probabilities.shape == (e.size, 4)
@@ -85,7 +90,7 @@ def test_fast_path_honours_cores_and_sums_to_one(monkeypatch):
 def test_tiles_cover_every_point_once():
     rng = np.random.default_rng(1)
     te, tn = rng.uniform(0, 5000, 1000), rng.uniform(0, 300, 1000)
-    order, bounds = shared._tiles(te, tn, 64)
+    order, bounds = square_tiles(te, tn, np.sqrt(5000 * 300 * 64 / 1000))
     assert np.array_equal(np.sort(order), np.arange(1000))
     assert bounds[0] == 0 and bounds[-1] == 1000 and np.all(np.diff(bounds) > 0)
     # a tile is compact: its points span about one tile side, not the whole area
@@ -93,14 +98,14 @@ def test_tiles_cover_every_point_once():
     assert np.median(spans) < 1000
 
 
-def test_spread_basis_is_orthonormal_and_full_without_tail(monkeypatch):
+def test_spread_basis_is_orthonormal_and_full_without_tail():
     e, n, slices = _basin()
     _, fit = map_shared(e, n, slices, e[:5], n[:5], 4, SETTINGS)
     v = shared._spread_basis(fit, 12)
     np.testing.assert_allclose(v.T @ v, np.eye(v.shape[1]), atol=1e-10)
-    monkeypatch.setattr(shared, "_SPREAD_TAIL", 0.0)
+    full = replace(fit, settings=replace(fit.settings, paths=PathSettings(spread_tail=0.0)))
     # centred samples span at most n_samples - 1 directions; all are kept
-    assert shared._spread_basis(fit, 12).shape[1] >= 11
+    assert shared._spread_basis(full, 12).shape[1] >= 11
 
 
 def test_local_cutoff_below_level():
@@ -119,21 +124,18 @@ def test_method_is_checked():
 
 
 @pytest.mark.parametrize("resid_budget", [0, 2**40], ids=["resid-per-tile", "resid-global"])
-def test_neighbourhood_mode_matches_global_when_it_holds_every_core(monkeypatch, resid_budget):
-    # Above _GLOBAL_CORES the relief is kriged per tile from its nearest cores and the
+def test_neighbourhood_mode_matches_global_when_it_holds_every_core(resid_budget):
+    # Above PathSettings.global_cores the relief is kriged per tile from its nearest cores and the
     # slices' residuals either from a system of the cores near the tile or, while
     # their weights fit the budget, from the set's global factorisation; with
     # neighbourhoods as large as the data the maps agree with the global ones.
-    monkeypatch.setattr(shared, "_LOCAL_WEIGHT_BYTES", resid_budget)
     e, n, slices = _basin(n_cores=60, n_slices=3, seed=7)
     te, tn = _targets(500.0)
     st = SharedSettings(samples=16, burn_in=10, chains=4, probability="moments")
-    monkeypatch.setattr(shared, "_FAST_BUDGET", 0.0)
-    glob, _ = map_shared(e, n, slices, te, tn, 4, st)
-    monkeypatch.setattr(shared, "_GLOBAL_CORES", 10)
-    monkeypatch.setattr(shared, "_NEIGHBOURS", 60)
-    monkeypatch.setattr(shared, "_TILE_POINTS", 100)
-    near, _ = map_shared(e, n, slices, te, tn, 4, st)
+    paths = PathSettings(fast_budget=0.0, local_weight_bytes=resid_budget)
+    glob, _ = map_shared(e, n, slices, te, tn, 4, replace(st, paths=paths))
+    paths = replace(paths, global_cores=10, neighbours=60, tile_points=100)
+    near, _ = map_shared(e, n, slices, te, tn, 4, replace(st, paths=paths))
     for k in slices:
         np.testing.assert_allclose(near[k].latent_mean, glob[k].latent_mean, atol=1e-3)
         np.testing.assert_allclose(near[k].probabilities, glob[k].probabilities, atol=1e-3)

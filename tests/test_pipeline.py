@@ -264,16 +264,20 @@ def test_area_polygon_and_user_transects_are_used(tmp_path):
     assert set(result.shifts["transect"]) == {"south", "north"}
 
 
-def test_float32_maps_derive_probabilities_from_the_latent(tmp_path, monkeypatch):
+def test_float32_maps_derive_probabilities_from_the_latent(tmp_path):
     # Large maps keep only the latent's mean and sd per slice (float32); probabilities,
     # the distal side and the contouring nodes are derived again on access and must be
     # what the engine's moments give, whatever asks for them.
-    import paleomap.field.shared as shared
+    from dataclasses import replace
+
     from paleomap.belts import node_field
+    from paleomap.field.engine import get_engine
+    from paleomap.field.shared import PathSettings
     from paleomap.probability import moment_probabilities
 
-    monkeypatch.setattr(shared, "_FAST_BUDGET", 0.0)
-    result = compute(load_project(DEMO))
+    project = load_project(DEMO)
+    settings = get_engine("shared_relief").settings(project.mapping)
+    result = compute(project, settings=replace(settings, paths=PathSettings(fast_budget=0.0)))
     b = result.project.scheme.tracked_boundary
     g = result.grid
     rng = np.random.default_rng(0)

@@ -18,10 +18,10 @@ on the data and divided by their half extent, which keeps ``FᵀC⁻¹F`` well s
 whatever the coordinate magnitudes. ``drift=None`` is simple kriging with a known
 zero mean.
 
-Numerical care: a jitter is added to the diagonal of ``C`` only when the Cholesky
-factorisation fails (smooth models with close points), starting at ``1e-12`` of the
-total variance and growing tenfold up to ``1e-6``; the amount used is kept in
-:attr:`KrigingSystem.jitter` and the direct-solve path uses the same matrix.
+Numerical care (:mod:`paleomap.field.cholesky`): a jitter is added to the diagonal of
+``C`` only when the Cholesky factorisation fails (smooth models with close points),
+starting at ``1e-12`` of the total variance and growing tenfold up to ``1e-6``; the
+amount used is kept in :attr:`KrigingSystem.jitter` and the direct-solve path uses the same matrix.
 
 Examples
 --------
@@ -38,13 +38,15 @@ Examples
 from __future__ import annotations
 
 import logging
-from collections.abc import Iterator
 
 import numpy as np
 from numpy.typing import ArrayLike
 from scipy import linalg
 
+from .cholesky import cholesky_with_jitter
 from .covariance import Covariance
+from .drift import DRIFTS, drift_basis, drift_frame, n_drift_terms
+from .tiling import chunk_slices, default_chunk_size
 
 __all__ = [
     "DRIFTS",
@@ -56,40 +58,6 @@ __all__ = [
 ]
 
 logger = logging.getLogger(__name__)
-
-DRIFTS: tuple[str | None, ...] = ("linear", "constant", None)
-"""Allowed drift settings: universal (linear), ordinary (constant), simple (None)."""
-
-_JITTER_START = 1e-12
-_JITTER_MAX = 1e-6
-
-
-def default_chunk_size(n_data: int, n_fields: int = 1, budget_mb: float = 64.0) -> int:
-    """Number of target points per chunk so one chunk's arrays stay within a budget.
-
-    A chunk holds the cross-covariance (points x data), its triangular solve and the
-    means (points x fields), all float64.
-
-    Examples
-    --------
-    >>> default_chunk_size(500, 100)
-    7570
-    """
-    per_point = 8.0 * (2 * n_data + n_fields + 8)
-    return int(max(256, budget_mb * 2**20 // per_point))
-
-
-def chunk_slices(n_points: int, chunk_size: int) -> Iterator[slice]:
-    """Consecutive slices of at most ``chunk_size`` over ``range(n_points)``.
-
-    Examples
-    --------
-    >>> [(s.start, s.stop) for s in chunk_slices(5, 2)]
-    [(0, 2), (2, 4), (4, 5)]
-    """
-    chunk_size = max(1, int(chunk_size))
-    for start in range(0, n_points, chunk_size):
-        yield slice(start, min(start + chunk_size, n_points))
 
 
 def _as_coordinates(coordinates, name: str = "coordinates") -> tuple[np.ndarray, np.ndarray]:
@@ -153,12 +121,9 @@ class KrigingSystem:
                 f"{self.n} data points cannot fit a {drift!r} drift with {p} terms; "
                 f"need at least {max(p, 1)}"
             )
-        if self.n:
-            self._centre = (float(self.easting.mean()), float(self.northing.mean()))
-            half = 0.5 * max(np.ptp(self.easting), np.ptp(self.northing))
-            self._scale = half if half > 0 else 1.0
+        self._centre, self._scale = drift_frame(self.easting, self.northing)
         c = covariance.matrix(self.easting, self.northing)
-        self.L, self.jitter = _cholesky_with_jitter(c, covariance.total_variance)
+        self.L, self.jitter = cholesky_with_jitter(c, covariance.total_variance)
         if self.jitter:
             logger.debug("kriging matrix needed a jitter of %.3g on the diagonal", self.jitter)
         self.F = self.drift_matrix(self.easting, self.northing)
@@ -174,19 +139,11 @@ class KrigingSystem:
     @property
     def n_drift(self) -> int:
         """Number of drift terms (3, 1 or 0)."""
-        return {"linear": 3, "constant": 1, None: 0}[self.drift]
+        return n_drift_terms(self.drift)
 
     def drift_matrix(self, easting: ArrayLike, northing: ArrayLike) -> np.ndarray:
         """Drift terms at points, (n_points, n_drift), in centred scaled coordinates."""
-        e = np.asarray(easting, dtype=float).ravel()
-        n = np.asarray(northing, dtype=float).ravel()
-        cols = []
-        if self.drift in ("linear", "constant"):
-            cols.append(np.ones_like(e))
-        if self.drift == "linear":
-            cols.append((e - self._centre[0]) / self._scale)
-            cols.append((n - self._centre[1]) / self._scale)
-        return np.stack(cols, axis=1) if cols else np.zeros((e.size, 0))
+        return drift_basis(easting, northing, self._centre, self._scale, self.drift)
 
     def covariance_matrix(self) -> np.ndarray:
         """Data covariance including the nugget and any jitter, ``L Lᵀ``."""
@@ -327,25 +284,6 @@ class KrigingSystem:
         qdiag = np.diag(self.projected_precision())
         scale = qdiag if y.ndim == 1 else qdiag[:, None]
         return y - alpha / scale, 1.0 / qdiag
-
-
-def _cholesky_with_jitter(c: np.ndarray, total_variance: float) -> tuple[np.ndarray, float]:
-    try:
-        return linalg.cholesky(c, lower=True), 0.0
-    except linalg.LinAlgError:
-        pass
-    jitter = _JITTER_START * total_variance
-    while jitter <= _JITTER_MAX * total_variance * (1 + 1e-9):
-        try:
-            cj = c.copy()
-            cj[np.diag_indices_from(cj)] += jitter
-            return linalg.cholesky(cj, lower=True), jitter
-        except linalg.LinAlgError:
-            jitter *= 10.0
-    raise ValueError(
-        "the data covariance matrix is not positive definite even with a jitter of "
-        f"{_JITTER_MAX:g} of the variance: are two data points at the same position?"
-    )
 
 
 class UniversalKriging:

@@ -69,9 +69,12 @@ from numpy.typing import ArrayLike
 from scipy import special
 from scipy.spatial import cKDTree
 
+from ..probability import belt_probabilities
+from ..spacing import nearest_core_spacing
 from .covariance import MODELS, Covariance
 from .crossval import CrossValidation, leave_one_out
-from .kriging import KrigingSystem, chunk_slices, default_chunk_size
+from .kriging import KrigingSystem
+from .tiling import chunk_slices, default_chunk_size, square_tiles
 from .truncgauss import (
     LatentPrior,
     belt_intervals,
@@ -84,7 +87,6 @@ from .truncgauss import (
 )
 from .variogram import (
     VariogramFit,
-    _nearest_spacing,
     experimental_variogram,
     fit_covariance,
     lag_edges,
@@ -96,6 +98,8 @@ __all__ = [
     "FieldResult",
     "FieldSettings",
     "OrdinalField",
+    "PerSliceEngine",
+    "PerSliceModel",
     "SliceModel",
     "SlicesFit",
     "fit_slices",
@@ -498,7 +502,7 @@ def fit_slices(
     for key, (idx, _) in slices.items():
         groups.setdefault(tuple(idx.tolist()), []).append(key)
 
-    spacing = _nearest_spacing(e, n) if e.size > 1 else 1.0
+    spacing = nearest_core_spacing(e, n) if e.size > 1 else 1.0
     extent = max(np.ptp(e), np.ptp(n))
     range_bounds = (max(0.5 * spacing, 1e-6 * extent), 3.0 * extent)
 
@@ -636,10 +640,12 @@ def _fill(out, where, mean, fields, var, model, settings):
     pdt = np.float32 if settings.float32 else np.float64
     t = model.thresholds.astype(pdt)
     sd_k = np.sqrt(var).astype(pdt)
+    cdf = None
     if fields is None:  # deterministic
         sd = sd_k
-        cdf = special.ndtr((t[None, :] - mean[:, None].astype(pdt)) / _floor(sd)[:, None])
     elif settings.probability == "samples":
+        # sample_averaged_probabilities in float32, one threshold at a time in place:
+        # (points x samples) is the largest array held
         buf = fields - mean[:, None].astype(pdt)
         spread = np.einsum("ij,ij->i", buf, buf) / fields.shape[1]
         sd = np.sqrt(sd_k * sd_k + spread)
@@ -652,14 +658,16 @@ def _fill(out, where, mean, fields, var, model, settings):
             cdf[:, k] = buf.mean(axis=1)
     else:
         sd = np.sqrt(sd_k * sd_k + np.einsum("ij,ij->i", fields, fields))
-        cdf = special.ndtr((t[None, :] - mean[:, None].astype(pdt)) / _floor(sd)[:, None])
     if "latent_mean" in out:
         out["latent_mean"][where] = mean
     if "latent_sd" in out:
         out["latent_sd"][where] = sd
     if "probabilities" in out or "most_likely" in out:
-        ones = np.ones((mean.size, 1), dtype=pdt)
-        prob = np.diff(np.concatenate([0 * ones, cdf.astype(pdt), ones], axis=1), axis=1)
+        if cdf is None:  # from the moments
+            prob = belt_probabilities(mean, _floor(sd), t, dtype=pdt)
+        else:
+            ones = np.ones((mean.size, 1), dtype=pdt)
+            prob = np.diff(np.concatenate([0 * ones, cdf.astype(pdt), ones], axis=1), axis=1)
         np.maximum(prob, 0, out=prob)  # monotone cdf; guards rounding only
         if "probabilities" in out:
             out["probabilities"][where] = prob
@@ -707,12 +715,8 @@ def _tiles(e, n, core_e, core_n, neighbours):
     """Spatial tiles of the target points, each holding about neighbours/4 cores."""
     area = max(np.ptp(core_e) * np.ptp(core_n), 1.0)
     width = np.sqrt(area / core_e.size * max(neighbours / 4.0, 1.0))
-    ti = np.floor((e - e.min()) / width).astype(np.int64)
-    tj = np.floor((n - n.min()) / width).astype(np.int64)
-    code = ti * (tj.max() + 1) + tj
-    order = np.argsort(code, kind="stable")
-    cuts = np.flatnonzero(np.diff(code[order])) + 1
-    return np.split(order, cuts), width
+    order, bounds = square_tiles(e, n, width)
+    return [order[a:b] for a, b in zip(bounds[:-1], bounds[1:], strict=True)], width
 
 
 def predict_slices(
@@ -957,3 +961,109 @@ class OrdinalField:
             fit = replace(fit, settings=replace(fit.settings, chunk_size=int(chunk_size)))
         e, n = coordinates
         return predict_slices(fit, e, n)[0]
+
+
+# -- the engine ------------------------------------------------------------------------
+
+
+class PerSliceEngine:
+    """The per-slice field engine, ``[mapping] engine = "per_slice"``: each slice
+    mapped on its own latent field, all slices sharing one fitted covariance.
+
+    Examples
+    --------
+    >>> from paleomap.field.engine import FieldEngine
+    >>> isinstance(PerSliceEngine(), FieldEngine)
+    True
+    """
+
+    name = "per_slice"
+
+    def settings(self, mapping) -> FieldSettings:
+        """Settings from the project's ``[mapping]`` table."""
+        from .engine import covariance_overrides
+
+        kwargs = dict(
+            covariance=covariance_overrides(mapping),
+            samples=mapping.samples,
+            burn_in=mapping.burn_in,
+            seed=mapping.seed,
+            deterministic=mapping.deterministic,
+        )
+        if mapping.neighbours is not None:
+            kwargs["kriging_neighbours"] = mapping.neighbours
+        return FieldSettings(**kwargs)
+
+    def fit(self, records, n_belts: int, settings: FieldSettings, ages) -> PerSliceModel:
+        """Fit to the records read at each slice age (ages with fewer than two cores
+        recording them are left out)."""
+        from .engine import ranks_by_age
+
+        ages = np.asarray(ages, dtype=float).ravel()
+        _ids, e, n, by_age = ranks_by_age(records, ages)
+        if not by_age:
+            raise ValueError("no age has a record in two or more cores")
+        return PerSliceModel(fit_slices(e, n, by_age, n_belts, settings), records, ages)
+
+
+class PerSliceModel:
+    """The fitted per-slice model (:class:`paleomap.field.engine.FittedField`).
+
+    At the fitted slice ages :meth:`predict` krige each slice's samples; at other ages
+    it conditions a field on the cores recording them with the fitted covariance held,
+    by iterated conditional means (deterministic, no probabilities stored).
+    """
+
+    def __init__(self, fit: SlicesFit, records, ages):
+        self.fit, self.records, self.ages = fit, records, ages
+
+    def _slot(self, age: float):
+        hits = [j for j in np.flatnonzero(self.ages == age) if j in self.fit.slices]
+        return int(hits[0]) if hits else None
+
+    def predict(self, easting, northing, ages):
+        """The latent's mean and sd and belt probabilities at points and ages."""
+        from .engine import Prediction, ranks_by_age
+
+        te = np.asarray(easting, dtype=float).ravel()
+        tn = np.asarray(northing, dtype=float).ravel()
+        ages = np.atleast_1d(np.asarray(ages, dtype=float))
+        slots = {i: self._slot(a) for i, a in enumerate(ages)}
+        got = {}
+        wanted = {j for j in slots.values() if j is not None}
+        if wanted:
+            out = predict_slices(self.fit, te, tn, keys=wanted)
+            got.update({i: out[j] for i, j in slots.items() if j is not None})
+        new = [i for i, j in slots.items() if j is None]
+        if new:
+            _ids, e, n, by_new = ranks_by_age(self.records, ages[new])
+            if by_new:
+                st = replace(
+                    self.fit.settings,
+                    covariance=self.fit.covariance,
+                    deterministic=True,
+                    cross_validate=False,
+                    outputs=("latent_mean", "latent_sd"),
+                )
+                out = predict_slices(fit_slices(e, n, by_new, self.fit.n_belts, st), te, tn)
+                got.update({new[j]: r for j, r in out.items()})
+        nan = np.full(te.size, np.nan)
+        t_nan = np.full(self.fit.n_belts - 1, np.nan)
+        return Prediction(
+            ages,
+            tuple(got[i].latent_mean if i in got else nan for i in range(ages.size)),
+            tuple(got[i].latent_sd if i in got else nan for i in range(ages.size)),
+            tuple(got[i].thresholds if i in got else t_nan for i in range(ages.size)),
+            tuple(got[i].probabilities if i in got else None for i in range(ages.size)),
+        )
+
+    def quality(self, age: float) -> dict:
+        """Leave-one-out scores at a fitted age and the fitted covariance."""
+        j = self._slot(float(age))
+        cv = self.fit.slices[j].cross_validation if j is not None else None
+        return dict(
+            method=PerSliceEngine.name,
+            loo_share_in_own_belt=float(cv.share_in_own_belt) if cv else np.nan,
+            loo_mean_abs_rank_error=float(cv.mean_abs_rank_error) if cv else np.nan,
+            **{f"relief_{k}": v for k, v in self.fit.covariance.as_dict().items()},
+        )

@@ -65,26 +65,85 @@ True
 from __future__ import annotations
 
 import logging
-import os
 from collections.abc import Hashable, Mapping
-from dataclasses import dataclass, field
+from dataclasses import dataclass, field, replace
 
 import numpy as np
 from numpy.typing import ArrayLike
-from scipy import linalg, special
+from scipy import linalg
 
+from ..grid import mean_core_spacing
+from ..probability import belt_probabilities, sample_averaged_probabilities
+from .cholesky import cholesky_with_jitter
 from .covariance import Covariance
-from .kriging import chunk_slices, default_chunk_size
+from .drift import drift_basis, drift_frame
+from .tiling import chunk_slices, default_chunk_size, default_threads, run_tiles, square_tiles
 from .truncgauss import belt_intervals, thresholds, truncated_normal, truncated_normal_mean
 from .variogram import experimental_variogram, fit_covariance, lag_edges
 
-__all__ = ["SharedFit", "SharedResult", "SharedSettings", "map_shared"]
+__all__ = [
+    "PathSettings",
+    "SharedFit",
+    "SharedReliefEngine",
+    "SharedReliefModel",
+    "SharedResult",
+    "SharedSettings",
+    "fit_shared",
+    "map_shared",
+]
 
 logger = logging.getLogger(__name__)
 
 _AUTO_MODELS = ("exponential", "spherical", "matern32")
-_EXACT_BUDGET = 2e7
-_LOO_LIMIT = 3000  # cores; above it the dense inverse for the scores is skipped
+
+
+@dataclass(frozen=True)
+class PathSettings:
+    """Where the shared-relief engine switches between its computation paths.
+
+    All are sizes, not results: every path computes the same map (the float32 tiled
+    path to within 1e-4 in probability), so these trade time and memory only.
+
+    Parameters
+    ----------
+    fast_budget : float
+        Points x samples x slices above which a map takes the float32 tiled path
+        (below it the float64 exact path).
+    exact_budget : float
+        Points x samples x slices x belts below which the exact path averages the belt
+        probabilities over the samples (``probability="auto"``).
+    tile_points : int
+        Target points per tile on the tiled path (four times as many in neighbourhoods).
+    spread_tail : float
+        Share of the samples' energy left out of the low-rank spread basis.
+    local_weight_bytes : int
+        Largest size of the slices' global residual weights; above it (and above
+        ``global_cores``) each tile gets a system of its nearby cores instead.
+    global_cores : int
+        Cores above which the relief is kriged in neighbourhoods and the sampler's
+        matrices are read in float32.
+    neighbours : int
+        Cores of a relief neighbourhood.
+    loo_cores : int
+        Cores above which the leave-one-out scores (a dense inverse) are skipped.
+    threads : int or None
+        Threads of the tiled path (each with one BLAS thread); None: up to two.
+
+    Examples
+    --------
+    >>> PathSettings(fast_budget=0.0).tile_points
+    1024
+    """
+
+    fast_budget: float = 1e7
+    exact_budget: float = 2e7
+    tile_points: int = 1024
+    spread_tail: float = 1e-5
+    local_weight_bytes: int = 512 * 2**20
+    global_cores: int = 2000
+    neighbours: int = 200
+    loo_cores: int = 3000
+    threads: int | None = None
 
 
 @dataclass(frozen=True)
@@ -112,6 +171,11 @@ class SharedSettings:
         ``"shared"`` (default) factorises each set of cores once and reuses the
         weights for every slice, sample and chunk; ``"direct"`` builds and solves
         every slice's kriging systems from scratch (slow; a check of the first).
+    paths : PathSettings
+        Where the computation switches paths (time and memory only).
+    condition_samples, condition_burn_in : int
+        Sampler run when the fitted model is asked for ages it was not fitted at
+        (:meth:`SharedReliefModel.predict`).
     """
 
     covariance: Mapping[str, object] | None = None
@@ -126,6 +190,9 @@ class SharedSettings:
     local_range: float = 1.0
     chunk_size: int | None = None
     method: str = "shared"
+    paths: PathSettings = PathSettings()
+    condition_samples: int = 40
+    condition_burn_in: int = 60
 
     def __post_init__(self) -> None:
         if self.method not in ("shared", "direct"):
@@ -159,6 +226,11 @@ class SharedFit:
     slices : dict
         Slice key -> dict with ``index`` (core indices), ``ranks``, ``drift``
         (n_samples, 3), ``latent`` (n_samples, n) and ``cv`` (leave-one-out scores).
+    centre, scale : tuple of float, float
+        The drift's frame (:func:`paleomap.field.drift.drift_frame` of the cores).
+    settings : SharedSettings
+    easting, northing : numpy.ndarray
+        Positions of the cores used (``cores``).
     """
 
     thresholds: np.ndarray
@@ -171,6 +243,8 @@ class SharedFit:
     centre: tuple[float, float]
     scale: float
     settings: SharedSettings = field(default_factory=SharedSettings)
+    easting: np.ndarray | None = None
+    northing: np.ndarray | None = None
 
 
 @dataclass(frozen=True, eq=False)
@@ -203,30 +277,11 @@ class SharedResult:
 
 
 def _drift(e, n, centre, scale):
-    return np.column_stack([np.ones_like(e), (e - centre[0]) / scale, (n - centre[1]) / scale])
-
-
-def _spacing(e, n) -> float:
-    from scipy.spatial import ConvexHull
-
-    try:
-        area = ConvexHull(np.column_stack([e, n])).volume
-    except Exception:  # collinear or too few cores
-        area = 0.0
-    if area > 0:
-        return float(np.sqrt(area / e.size))
-    span = max(np.ptp(e), np.ptp(n), 1.0)
-    return float(span / max(e.size - 1, 1))
+    return drift_basis(e, n, centre, scale, "linear")
 
 
 def _chol(c, total):
-    jitter = 0.0
-    for _ in range(10):
-        try:
-            return linalg.cholesky(c + jitter * np.eye(len(c)), lower=True)
-        except linalg.LinAlgError:
-            jitter = max(jitter * 10.0, 1e-10 * total)
-    raise ValueError("covariance of the cores is not positive definite (duplicate cores?)")
+    return cholesky_with_jitter(c, total)[0]
 
 
 def _fit_relief(e, n, values, weights, overrides, strike_deg):
@@ -269,9 +324,22 @@ class _Sampler:
     """The blocked Gibbs sampler of the multi-slice model (all chains at once)."""
 
     def __init__(
-        self, e, n, obs_core, obs_slice, lo, hi, n_slices, centre, scale, rng, deterministic
+        self,
+        e,
+        n,
+        obs_core,
+        obs_slice,
+        lo,
+        hi,
+        n_slices,
+        centre,
+        scale,
+        rng,
+        deterministic,
+        global_cores=PathSettings.global_cores,
     ):
         self.e, self.n = e, n
+        self.global_cores = global_cores
         self.oc, self.os = obs_core, obs_slice
         self.lo, self.hi = lo, hi
         self.S = n_slices
@@ -310,7 +378,7 @@ class _Sampler:
         del Lm
         lc = _chol(c, relief.total_variance)
         del c
-        if self.e.size > _GLOBAL_CORES:
+        if self.e.size > self.global_cores:
             # Many cores: the two products per sweep read the matrices in float32,
             # half the memory traffic; a random draw does not need float64 rounding.
             at, lc = at.astype(np.float32), lc.astype(np.float32)
@@ -324,16 +392,20 @@ class _Sampler:
         z = np.zeros((chains, self.e.size))
         return y, beta, z
 
-    def sweep(self, y, beta, z):
-        chains = y.shape[0]
-        # 1. y | Z, beta
+    def draw_latent(self, beta, z):
+        """Step 1, ``y | Z, beta``: each record's latent from ``N(F beta_s + Z_i,
+        sigma_E²)`` truncated to its belt's interval, every chain at once."""
         # drift of every (slice, core), then gathered: cheaper than per observation
         mean = self._drift_obs(beta) + np.take(z, self.oc, axis=1)
         sd = np.sqrt(self.s2)
         if self.det:
-            y = truncated_normal_mean(mean, sd, self.lo, self.hi)
-        else:
-            y = truncated_normal(mean, sd, self.lo, self.hi, self.rng)
+            return truncated_normal_mean(mean, sd, self.lo, self.hi)
+        return truncated_normal(mean, sd, self.lo, self.hi, self.rng)
+
+    def sweep(self, y, beta, z):
+        chains = y.shape[0]
+        # 1. y | Z, beta
+        y = self.draw_latent(beta, z)
         # 2. beta | y, Z
         u = y - np.take(z, self.oc, axis=1)
         for s, rows in enumerate(self.slice_rows):
@@ -433,6 +505,48 @@ def map_shared(
         Slice key -> :class:`SharedResult`.
     fit : SharedFit
     """
+    fit = fit_shared(core_easting, core_northing, ranks_by_slice, n_belts, settings)
+    te = np.asarray(easting, float).ravel()
+    tn = np.asarray(northing, float).ravel()
+    out = _predict(fit, fit.easting, fit.northing, te, tn)
+    scores = _scores(fit)
+    results = {}
+    for k, sl in fit.slices.items():
+        o = out[k]
+        share, mae = scores.get(k, (np.nan, np.nan))
+        results[k] = SharedResult(
+            o["mean"], o["sd"], o["prob"], fit.thresholds, sl["index"], sl["ranks"], share, mae
+        )
+    return results, fit
+
+
+def fit_shared(
+    core_easting: ArrayLike,
+    core_northing: ArrayLike,
+    ranks_by_slice: Mapping[Hashable, tuple[ArrayLike, ArrayLike]],
+    n_belts: int,
+    settings: SharedSettings | None = None,
+    given: SharedFit | None = None,
+) -> SharedFit:
+    """Fit the multi-slice model to every slice at once (see the module notes).
+
+    Parameters
+    ----------
+    core_easting, core_northing : array_like
+        Positions of all cores (n_cores,).
+    ranks_by_slice : mapping
+        Slice key -> (core indices, belt ranks) of the cores with a record.
+    n_belts : int
+    settings : SharedSettings, optional
+    given : SharedFit, optional
+        A model fitted before: its thresholds, covariances and drift frame are kept and
+        only the latent at these slices' cores is sampled (the model conditioned on
+        other slices' records, e.g. at other ages).
+
+    Returns
+    -------
+    SharedFit
+    """
     st = settings or SharedSettings()
     rng = np.random.default_rng(st.seed)
     ce_all = np.asarray(core_easting, dtype=float)
@@ -449,29 +563,39 @@ def map_shared(
         os_.append(np.full(len(idx), s))
         rk.append(np.asarray(ranks, int))
     oc, os_, rk = np.concatenate(oc), np.concatenate(os_), np.concatenate(rk)
-    props = np.bincount(rk, minlength=n_belts).astype(float)
-    t = thresholds(props, st.min_proportion)
+    if given is None:
+        counts = np.bincount(rk, minlength=n_belts).astype(float)
+        t = thresholds(counts, st.min_proportion)
+        props = counts / counts.sum()
+        centre, scale = drift_frame(e, n)
+    else:
+        props, t, centre, scale = given.proportions, given.thresholds, given.centre, given.scale
     lo, hi = belt_intervals(rk, t)
-    centre = (float(e.mean()), float(n.mean()))
-    scale = 0.5 * max(np.ptp(e), np.ptp(n)) or 1.0
-    spacing = _spacing(e, n)
 
-    sampler = _Sampler(e, n, oc, os_, lo, hi, len(keys), centre, scale, rng, st.deterministic)
-    # First fit: from interval means, with per-slice least-squares drifts.
-    y0 = truncated_normal_mean(0.0, 1.0, lo, hi)
-    relief, s2 = _fit_from(sampler, y0[None], np.zeros((1, e.size)), st, None)
-    sampler.set_covariance(relief, s2)
-    # Short pass, refit from the samples, then the real run.
+    sampler = _Sampler(
+        e, n, oc, os_, lo, hi, len(keys), centre, scale, rng, st.deterministic,
+        st.paths.global_cores,
+    )  # fmt: skip
     chains = 1 if st.deterministic else st.chains
-    y, beta, z = sampler.run(chains, max(st.burn_in // 2, 10), chains, 1)
-    relief, s2 = _fit_from(sampler, y, z, st, relief)
+    if given is None:
+        # First fit: from interval means, with per-slice least-squares drifts.
+        y0 = truncated_normal_mean(0.0, 1.0, lo, hi)
+        relief, s2 = _fit_from(sampler, y0[None], np.zeros((1, e.size)), st, None)
+        sampler.set_covariance(relief, s2)
+        # Short pass, refit from the samples, then the real run.
+        y, beta, z = sampler.run(chains, max(st.burn_in // 2, 10), chains, 1)
+        relief, s2 = _fit_from(sampler, y, z, st, relief)
+        local = None
+    else:
+        relief, s2, local = given.relief, float(given.local.sill), given.local
     sampler.set_covariance(relief, s2)
     keep = 1 if st.deterministic else st.samples
     ys, betas, zs = sampler.run(chains, st.burn_in, keep, st.thin)
     logger.info("shared relief covariance: %s; slice residual variance %.3f", relief.as_dict(), s2)
     del sampler  # its covariance factors (3 x cores² floats) are not needed to map
 
-    local = Covariance(relief.model, s2, st.local_range * spacing, 1.0, 0.0)
+    if local is None:
+        local = Covariance(relief.model, s2, st.local_range * mean_core_spacing(e, n), 1.0, 0.0)
     slices = {}
     for s, k in enumerate(keys):
         rows = np.flatnonzero(os_ == s)
@@ -482,11 +606,16 @@ def map_shared(
             drift=betas[:, s, :],
             latent=ys[:, rows],
         )
-    fit = SharedFit(t, props / props.sum(), relief, local, zs, used, slices, centre, scale, st)
-    results = _predict(
-        fit, e, n, np.asarray(easting, float).ravel(), np.asarray(northing, float).ravel()
-    )
-    return results, fit
+    return SharedFit(t, props, relief, local, zs, used, slices, centre, scale, st, e, n)
+
+
+def _scores(fit: SharedFit) -> dict:
+    """Leave-one-out scores per slice (none above ``paths.loo_cores`` cores)."""
+    e, n = fit.easting, fit.northing
+    if e.size > fit.settings.paths.loo_cores:
+        return {}
+    Lr = _chol(fit.relief.matrix(e, n), fit.relief.total_variance)
+    return _loo(fit, e, n, Lr)
 
 
 def _fit_from(sampler, ys, zs, st, previous):
@@ -577,14 +706,13 @@ def _predict_exact(fit: SharedFit, e, n, te, tn):
             )
             alpha_l[k] = linalg.cho_solve((Ll, True), resid.T)  # (n_i, S)
     exact = st.probability == "samples" or (
-        st.probability == "auto" and m_pts * n_samples * len(fit.slices) * K < _EXACT_BUDGET
+        st.probability == "auto" and m_pts * n_samples * len(fit.slices) * K < st.paths.exact_budget
     )
     out = {
         k: dict(mean=np.empty(m_pts), sd=np.empty(m_pts), prob=np.empty((m_pts, K), np.float32))
         for k in fit.slices
     }
     chunk = st.chunk_size or default_chunk_size(e.size, n_samples)
-    tt = np.concatenate([[-np.inf], t, [np.inf]])
     for sl_ in chunk_slices(m_pts, chunk):
         pe, pn = te[sl_], tn[sl_]
         kz = fit.relief.cross(pe, pn, e, n)  # (m, n_cores)
@@ -608,39 +736,23 @@ def _predict_exact(fit: SharedFit, e, n, te, tn):
                 o["mean"][sl_] = mean
                 o["sd"][sl_] = sd
                 if exact and n_samples > 1:
-                    s0 = np.sqrt(np.maximum(base_var, 1e-12))[:, None]
-                    cdf = special.ndtr((tt[None, None, 1:-1] - mu[..., None]) / s0[..., None])
-                    cdf = cdf.mean(axis=1)
+                    s0 = np.sqrt(np.maximum(base_var, 1e-12))
+                    o["prob"][sl_] = sample_averaged_probabilities(mu, s0, t)
                 else:
-                    cdf = special.ndtr((t[None, :] - mean[:, None]) / sd[:, None])
-                full = np.concatenate([np.zeros((len(pe), 1)), cdf, np.ones((len(pe), 1))], axis=1)
-                o["prob"][sl_] = np.diff(full, axis=1)
+                    o["prob"][sl_] = belt_probabilities(mean, sd, t)
     return out
 
 
 def _predict(fit: SharedFit, e, n, te, tn):
-    """Map every slice at the target points; the leave-one-out scores beside."""
+    """Every slice of ``fit`` at the target points: slice key -> dict of ``mean``,
+    ``sd`` and ``prob`` (None on the float32 path, where they follow from the two)."""
     st = fit.settings
     n_samples = fit.relief_at_cores.shape[0]
     if st.method == "direct":
-        out = _predict_direct(fit, e, n, te, tn)
-    elif st.probability != "samples" and te.size * n_samples * len(fit.slices) > _FAST_BUDGET:
-        out = _predict_fast(fit, e, n, te, tn)
-    else:
-        out = _predict_exact(fit, e, n, te, tn)
-    if e.size <= _LOO_LIMIT:
-        Lr = _chol(fit.relief.matrix(e, n), fit.relief.total_variance)
-        scores = _loo(fit, e, n, Lr)
-    else:
-        scores = {}
-    results = {}
-    for k, sl in fit.slices.items():
-        o = out[k]
-        share, mae = scores.get(k, (np.nan, np.nan))
-        results[k] = SharedResult(
-            o["mean"], o["sd"], o["prob"], fit.thresholds, sl["index"], sl["ranks"], share, mae
-        )
-    return results
+        return _predict_direct(fit, e, n, te, tn)
+    if st.probability != "samples" and te.size * n_samples * len(fit.slices) > st.paths.fast_budget:
+        return _predict_fast(fit, e, n, te, tn)
+    return _predict_exact(fit, e, n, te, tn)
 
 
 def _residual_samples(fit: SharedFit, k, e, n):
@@ -649,14 +761,6 @@ def _residual_samples(fit: SharedFit, k, e, n):
     idx = sl["local_index"]
     F = _drift(e[idx], n[idx], fit.centre, fit.scale)
     return sl["latent"] - np.einsum("ok,sk->so", F, sl["drift"]) - fit.relief_at_cores[:, idx]
-
-
-def _probabilities(mean, sd, t):
-    """Belt probabilities from the predictive mean and standard deviation (moments)."""
-    cdf = special.ndtr((t[None, :] - mean[:, None]) / sd[:, None])
-    m = len(mean)
-    full = np.concatenate([np.zeros((m, 1), cdf.dtype), cdf, np.ones((m, 1), cdf.dtype)], axis=1)
-    return np.diff(full, axis=1)
 
 
 def _predict_direct(fit: SharedFit, e, n, te, tn):
@@ -668,8 +772,7 @@ def _predict_direct(fit: SharedFit, e, n, te, tn):
     st = fit.settings
     t = fit.thresholds
     n_samples = fit.relief_at_cores.shape[0]
-    tt = np.concatenate([[-np.inf], t, [np.inf]])
-    exact_budget = te.size * n_samples * len(fit.slices) * (t.size + 1) < _EXACT_BUDGET
+    exact_budget = te.size * n_samples * len(fit.slices) * (t.size + 1) < st.paths.exact_budget
     exact = st.probability == "samples" or (st.probability == "auto" and exact_budget)
     out = {}
     for k, sl in fit.slices.items():
@@ -689,20 +792,16 @@ def _predict_direct(fit: SharedFit, e, n, te, tn):
         spread = mu.var(axis=1) if n_samples > 1 else 0.0
         sd = np.sqrt(np.maximum(base_var + spread, 1e-12))
         if exact and n_samples > 1:
-            s0 = np.sqrt(np.maximum(base_var, 1e-12))[:, None, None]
-            cdf = special.ndtr((tt[None, None, 1:-1] - mu[..., None]) / s0).mean(axis=1)
-            m = te.size
-            full = np.concatenate([np.zeros((m, 1)), cdf, np.ones((m, 1))], axis=1)
-            prob = np.diff(full, axis=1)
+            prob = sample_averaged_probabilities(mu, np.sqrt(np.maximum(base_var, 1e-12)), t)
         else:
-            prob = _probabilities(mean, sd, t)
+            prob = belt_probabilities(mean, sd, t)
         out[k] = dict(mean=mean, sd=sd, prob=prob.astype(np.float32))
     return out
 
 
 # ----------------------------------------------------------------------- fast path
 #
-# Large maps (points x samples x slices above _FAST_BUDGET) go through one pass over
+# Large maps (points x samples x slices above ``PathSettings.fast_budget``) go through one pass over
 # spatial tiles of the target points, in float32 where it keeps the probabilities
 # within 1e-4:
 #
@@ -716,19 +815,12 @@ def _predict_direct(fit: SharedFit, e, n, te, tn):
 #   cores (one per set of cores), restricted to those cores;
 # * the spread over samples is computed in a low-rank basis of the sample space (the
 #   principal components of the sampled latent values at the cores, all slices
-#   together, keeping all but _SPREAD_TAIL of their energy), never as
+#   together, keeping all but ``PathSettings.spread_tail`` of their energy), never as
 #   (points x samples) per slice.
 
-_FAST_BUDGET = 1e7  # points x samples x slices; below it the exact float64 path
 _LOCAL_CUTOFF = 1e-5
-_SPREAD_TAIL = 1e-5
-_TILE_POINTS = 1024
 _CACHE_VALUES = 32768  # float32 values per block of elementwise work (128 KiB)
-_LOCAL_WEIGHT_BYTES = 512 * 2**20  # global residual weights of every set of cores, at most
 _VARIANCE_TOL = 1e-6
-_THREADS = min(2, os.cpu_count() or 1)
-_GLOBAL_CORES = 2000  # above it, the relief is kriged in neighbourhoods
-_NEIGHBOURS = 200
 
 
 def _cross32(cov: Covariance, pe, pn, ce, cn, dtype, rhs=None):
@@ -806,21 +898,6 @@ def _cutoff_m(cov: Covariance, level: float) -> float:
     return float(r[min(above[-1] + 1, r.size - 1)] * cov.range_m)
 
 
-def _tiles(te, tn, per_tile):
-    """Order of the points by square tiles of about ``per_tile`` points, and the tiles'
-    bounds in that order (every point in exactly one tile)."""
-    m = te.size
-    w = max(np.ptp(te), 1.0)
-    h = max(np.ptp(tn), 1.0)
-    side = np.sqrt(w * h * per_tile / max(m, 1))
-    ci = np.floor((te - te.min()) / side).astype(np.int64)
-    ri = np.floor((tn - tn.min()) / side).astype(np.int64)
-    key = ri * (ci.max() + 1) + ci
-    order = np.argsort(key, kind="stable")
-    bounds = np.flatnonzero(np.diff(key[order])) + 1
-    return order, np.concatenate([[0], bounds, [m]])
-
-
 def _spread_basis(fit: SharedFit, n_samples: int):
     """Orthonormal sample-space basis (n_samples, r) of the sampled deviations."""
     parts = [fit.relief_at_cores - fit.relief_at_cores.mean(axis=0)]
@@ -835,7 +912,7 @@ def _spread_basis(fit: SharedFit, n_samples: int):
     total = w.sum()
     if total <= 0:
         return np.zeros((n_samples, 0))
-    kept = int(np.searchsorted(np.cumsum(w) / total, 1.0 - _SPREAD_TAIL) + 1)
+    kept = int(np.searchsorted(np.cumsum(w) / total, 1.0 - fit.settings.paths.spread_tail) + 1)
     return v[:, : min(kept, n_samples)]
 
 
@@ -860,29 +937,6 @@ def _variance_basis(cov: Covariance, e, n, te, tn):
     return w[:, :kept]
 
 
-def _blas_thread_limiter():
-    """OpenBLAS's per-thread thread count setter, if numpy's BLAS has one (else None)."""
-    global _BLAS_LOCAL
-    if _BLAS_LOCAL is False:
-        import ctypes
-        import glob
-
-        _BLAS_LOCAL = None
-        libs = os.path.join(os.path.dirname(np.__file__), os.pardir, "numpy.libs")
-        for path in glob.glob(os.path.join(libs, "lib*openblas*.so*")):
-            try:
-                fn = ctypes.CDLL(path).openblas_set_num_threads_local
-            except (OSError, AttributeError):
-                continue
-            fn.argtypes, fn.restype = [ctypes.c_int], ctypes.c_int
-            _BLAS_LOCAL = fn
-            break
-    return _BLAS_LOCAL
-
-
-_BLAS_LOCAL = False
-
-
 def _predict_fast(fit: SharedFit, e, n, te, tn):
     m_pts = te.size
     n_samples = fit.relief_at_cores.shape[0]
@@ -895,9 +949,10 @@ def _predict_fast(fit: SharedFit, e, n, te, tn):
     groups: dict[tuple, list] = {}
     for k, sl in fit.slices.items():
         groups.setdefault(tuple(sl["local_index"]), []).append(k)
-    local = e.size > _GLOBAL_CORES
+    paths = fit.settings.paths
+    local = e.size > paths.global_cores
     if local:
-        logger.info("%d cores: kriging in neighbourhoods of %d cores", e.size, _NEIGHBOURS)
+        logger.info("%d cores: kriging in neighbourhoods of %d cores", e.size, paths.neighbours)
         relief = _ReliefNeighbourhoods(fit, e, n, V)
     else:
         relief = _ReliefGlobal(fit, e, n, te, tn, V)
@@ -906,7 +961,7 @@ def _predict_fast(fit: SharedFit, e, n, te, tn):
     # weights fit the budget (exact, and the cheapest per tile); else a system of the
     # cores near each tile.
     weight_bytes = 4 * sum((len(i) + 3) * (len(i) + len(ks) * (1 + r)) for i, ks in groups.items())
-    local_resid = local and weight_bytes > _LOCAL_WEIGHT_BYTES
+    local_resid = local and weight_bytes > paths.local_weight_bytes
     gdata = [
         _LocalGroup(fit, e, n, np.asarray(idx_t), ks, V, cut, local_resid)
         for idx_t, ks in groups.items()
@@ -915,27 +970,12 @@ def _predict_fast(fit: SharedFit, e, n, te, tn):
     # (moments) and are derived when asked for (SharedResult.probabilities)
     mean_o = [np.empty(m_pts, dt) for _ in keys]
     sd_o = [np.empty(m_pts, dt) for _ in keys]
-    per_tile = fit.settings.chunk_size or (4 * _TILE_POINTS if local else _TILE_POINTS)
-    order, bounds = _tiles(te, tn, per_tile)
+    per_tile = fit.settings.chunk_size or (4 * paths.tile_points if local else paths.tile_points)
+    side = np.sqrt(max(np.ptp(te), 1.0) * max(np.ptp(tn), 1.0) * per_tile / max(m_pts, 1))
+    order, bounds = square_tiles(te, tn, side)
     tile = _TileJob(fit, te, tn, order, relief, gdata, pos, mean_o, sd_o)
-
     spans = list(zip(bounds[:-1], bounds[1:], strict=True))
-    single = _blas_thread_limiter()
-    if _THREADS > 1 and len(spans) > 1 and single is not None:
-        # numpy's elementwise work is single-threaded and the tiles are independent:
-        # one tile per core, each with a single-threaded BLAS (no oversubscription)
-        from concurrent.futures import ThreadPoolExecutor
-
-        def work(a0, a1):
-            single(1)
-            tile(a0, a1)
-
-        with ThreadPoolExecutor(_THREADS) as pool:
-            for f in [pool.submit(work, a0, a1) for a0, a1 in spans]:
-                f.result()
-    else:
-        for a0, a1 in spans:
-            tile(a0, a1)
+    run_tiles(tile, spans, paths.threads or default_threads())
     return {k: dict(mean=mean_o[j], sd=sd_o[j], prob=None) for j, k in enumerate(keys)}
 
 
@@ -1010,7 +1050,7 @@ class _ReliefNeighbourhoods:
         u, v = cov._scaled(np.array([pe.min(), pe.max()]), np.array([pn.min(), pn.max()]))
         cu, cv = cov._scaled(np.array([pe.mean()]), np.array([pn.mean()]))
         corners = np.array([[u[i], v[j]] for i in (0, 1) for j in (0, 1)])
-        k = min(_NEIGHBOURS, self.e.size)
+        k = min(self.fit.settings.paths.neighbours, self.e.size)
         near = [self.tree.query([cu[0], cv[0]], k=k)[1]]
         near += [self.tree.query(c, k=max(k // 4, 1))[1] for c in corners]
         J = np.unique(np.concatenate([np.atleast_1d(x) for x in near]))
@@ -1111,3 +1151,108 @@ class _LocalGroup:
             g = kl @ w[np.ix_(rows, cols)]
             b = j1 - j0
             yield self.ks[j0:j1], var_l, g[:, :b].copy(), g[:, b:].reshape(m, b, r)
+
+
+# ----------------------------------------------------------------------- the engine
+
+
+class SharedReliefEngine:
+    """The default field engine, ``[mapping] engine = "shared_relief"``: every slice
+    mapped together with a latent relief shared between them (see the module notes).
+
+    Examples
+    --------
+    >>> from paleomap.field.engine import FieldEngine
+    >>> isinstance(SharedReliefEngine(), FieldEngine)
+    True
+    """
+
+    name = "shared_relief"
+
+    def settings(self, mapping) -> SharedSettings:
+        """Settings from the project's ``[mapping]`` table."""
+        from .engine import covariance_overrides
+
+        return SharedSettings(
+            covariance=covariance_overrides(mapping),
+            samples=mapping.samples,
+            burn_in=mapping.burn_in,
+            seed=mapping.seed,
+            deterministic=mapping.deterministic,
+        )
+
+    def fit(self, records, n_belts: int, settings: SharedSettings, ages) -> SharedReliefModel:
+        """Fit to the records read at each slice age (ages with fewer than two cores
+        recording them are left out)."""
+        from .engine import ranks_by_age
+
+        ages = np.asarray(ages, dtype=float).ravel()
+        _ids, e, n, by_age = ranks_by_age(records, ages)
+        if not by_age:
+            raise ValueError("no age has a record in two or more cores")
+        fit = fit_shared(e, n, by_age, n_belts, settings)
+        return SharedReliefModel(fit, records, ages, n_belts, _scores(fit))
+
+
+class SharedReliefModel:
+    """The fitted shared-relief model (:class:`paleomap.field.engine.FittedField`).
+
+    At the fitted slice ages :meth:`predict` krige the sampled latent; at other ages
+    it samples the latent at the cores recording them with the fitted thresholds,
+    covariances and drift frame held (``settings.condition_samples`` samples after
+    ``settings.condition_burn_in`` sweeps), then kriges it the same way.
+    """
+
+    def __init__(self, fit: SharedFit, records, ages, n_belts: int, scores: dict):
+        self.fit, self.records, self.ages = fit, records, ages
+        self.n_belts, self.scores = n_belts, scores
+
+    def _slot(self, age: float):
+        hits = [j for j in np.flatnonzero(self.ages == age) if j in self.fit.slices]
+        return int(hits[0]) if hits else None
+
+    def predict(self, easting, northing, ages):
+        """The latent's mean and sd and belt probabilities at points and ages."""
+        from .engine import Prediction, ranks_by_age
+
+        te = np.asarray(easting, dtype=float).ravel()
+        tn = np.asarray(northing, dtype=float).ravel()
+        ages = np.atleast_1d(np.asarray(ages, dtype=float))
+        slots = {i: self._slot(a) for i, a in enumerate(ages)}
+        got: dict[int, dict] = {}
+        wanted = sorted({j for j in slots.values() if j is not None})
+        if wanted:
+            sub = replace(self.fit, slices={j: self.fit.slices[j] for j in wanted})
+            out = _predict(sub, sub.easting, sub.northing, te, tn)
+            got.update({i: out[j] for i, j in slots.items() if j is not None})
+        new = [i for i, j in slots.items() if j is None]
+        if new:
+            st = self.fit.settings
+            st = replace(st, samples=st.condition_samples, burn_in=st.condition_burn_in)
+            _ids, e, n, by_new = ranks_by_age(self.records, ages[new])
+            if by_new:
+                cond = fit_shared(e, n, by_new, self.n_belts, st, given=self.fit)
+                out = _predict(cond, cond.easting, cond.northing, te, tn)
+                got.update({new[j]: o for j, o in out.items()})
+        nan = np.full(te.size, np.nan)
+        rows = [got.get(i, dict(mean=nan, sd=nan, prob=None)) for i in range(ages.size)]
+        return Prediction(
+            ages,
+            tuple(r["mean"] for r in rows),
+            tuple(r["sd"] for r in rows),
+            tuple(self.fit.thresholds for _ in rows),
+            tuple(r["prob"] for r in rows),
+        )
+
+    def quality(self, age: float) -> dict:
+        """Leave-one-out scores at a fitted age and the fitted covariances."""
+        j = self._slot(float(age))
+        share, mae = self.scores.get(j, (np.nan, np.nan))
+        return dict(
+            method=SharedReliefEngine.name,
+            loo_share_in_own_belt=share,
+            loo_mean_abs_rank_error=mae,
+            **{f"relief_{k}": v for k, v in self.fit.relief.as_dict().items()},
+            slice_residual_variance=float(self.fit.local.sill),
+            slice_residual_range_m=float(self.fit.local.range_m),
+        )

@@ -51,7 +51,10 @@ from numpy.typing import ArrayLike
 from scipy import linalg, special
 from scipy.spatial import cKDTree
 
+from ..probability import belt_probabilities
+from .cholesky import cholesky_with_jitter
 from .covariance import Covariance
+from .drift import drift_basis, drift_frame
 
 __all__ = [
     "LatentPrior",
@@ -152,41 +155,6 @@ def belt_of(latent: ArrayLike, threshold: ArrayLike) -> np.ndarray:
     [0, 1, 2]
     """
     return np.searchsorted(np.asarray(threshold, dtype=float), np.asarray(latent), side="right")
-
-
-def belt_probabilities(
-    mean: ArrayLike, sd: ArrayLike, threshold: ArrayLike, dtype=np.float64
-) -> np.ndarray:
-    """``Phi((t_{k+1} - mean) / sd) - Phi((t_k - mean) / sd)`` for every belt.
-
-    Parameters
-    ----------
-    mean, sd : array_like
-        Broadcastable arrays; ``sd`` may be 0 (a step at the thresholds).
-    threshold : array_like
-        (K-1,) thresholds.
-
-    Returns
-    -------
-    numpy.ndarray
-        ``mean.shape + (K,)``, each row summing to 1.
-
-    Examples
-    --------
-    >>> belt_probabilities(0.0, 1.0, [0.0]).tolist()
-    [0.5, 0.5]
-    """
-    mean = np.asarray(mean, dtype=dtype)
-    sd = np.asarray(sd, dtype=dtype)
-    t = np.asarray(threshold, dtype=dtype)
-    with np.errstate(divide="ignore", invalid="ignore"):
-        z = (t - mean[..., None]) / sd[..., None]
-    # sd == 0 gives +-inf (fine for ndtr) or nan where mean sits on a threshold.
-    z = np.where(np.isnan(z), 0.0, z).astype(dtype, copy=False)
-    cdf = special.ndtr(z)
-    shape = cdf.shape[:-1] + (1,)
-    cdf = np.concatenate([np.zeros(shape, dtype), cdf, np.ones(shape, dtype)], axis=-1)
-    return np.diff(cdf, axis=-1)
 
 
 def indicator_variogram(rho: ArrayLike, threshold: ArrayLike) -> np.ndarray:
@@ -379,19 +347,10 @@ class LatentPrior:
 
     def drift_matrix(self, easting=None, northing=None) -> np.ndarray:
         """Drift terms (n, p) in the same centred, scaled coordinates as kriging."""
-        e0 = np.asarray(self.easting, dtype=float)
-        n0 = np.asarray(self.northing, dtype=float)
-        e = e0 if easting is None else np.asarray(easting, dtype=float)
-        n = n0 if northing is None else np.asarray(northing, dtype=float)
-        half = 0.5 * max(np.ptp(e0), np.ptp(n0)) if e0.size else 1.0
-        half = half if half > 0 else 1.0
-        cols = []
-        if self.drift in ("linear", "constant"):
-            cols.append(np.ones_like(e))
-        if self.drift == "linear":
-            cols.append((e - e0.mean()) / half)
-            cols.append((n - n0.mean()) / half)
-        return np.stack(cols, axis=1) if cols else np.zeros((e.size, 0))
+        centre, scale = drift_frame(self.easting, self.northing)
+        e = self.easting if easting is None else easting
+        n = self.northing if northing is None else northing
+        return drift_basis(e, n, centre, scale, self.drift)
 
     def matrix(self) -> np.ndarray:
         """Latent covariance at the cores, ``C + s² F Fᵀ``."""
@@ -404,16 +363,13 @@ class LatentPrior:
         """Inverse of :meth:`matrix` (dense)."""
         c = self.matrix()
         # Symmetric positive definite: invert through Cholesky for accuracy.
-        jitter = 0.0
-        for _ in range(8):
-            try:
-                cf = linalg.cho_factor(c + jitter * np.eye(len(c)), lower=True)
-                break
-            except linalg.LinAlgError:
-                jitter = max(jitter * 10.0, 1e-12 * self.covariance.total_variance)
-        else:
-            raise ValueError("latent covariance is not positive definite (duplicate cores?)")
-        return linalg.cho_solve(cf, np.eye(len(c)))
+        try:
+            L, _ = cholesky_with_jitter(c, self.covariance.total_variance)
+        except ValueError:
+            raise ValueError(
+                "latent covariance is not positive definite (duplicate cores?)"
+            ) from None
+        return linalg.cho_solve((L, True), np.eye(len(c)))
 
 
 class _DenseConditionals:

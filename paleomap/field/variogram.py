@@ -33,7 +33,6 @@ from dataclasses import dataclass
 import numpy as np
 from numpy.typing import ArrayLike
 from scipy.optimize import least_squares
-from scipy.spatial import cKDTree
 
 from .covariance import MODELS, Covariance, correlation, scaled_distance
 
@@ -357,10 +356,3 @@ def fit_covariance(
     fitted = tuple(k for k in _FITTABLE if k not in fixed or (k == "model" and len(models) > 1))
     logger.debug("fitted covariance %s (cost %.4g)", cov, res.cost)
     return VariogramFit(cov, s, float(res.cost), fitted, tried, ev)
-
-
-def _nearest_spacing(easting: np.ndarray, northing: np.ndarray) -> float:
-    """Median distance from each point to its nearest neighbour."""
-    pts = np.column_stack([easting, northing])
-    d, _ = cKDTree(pts).query(pts, k=2)
-    return float(np.median(d[:, 1]))

@@ -72,9 +72,10 @@ def wheeler_chart(
         raise ValueError("the build has no chronostratigraphic chart (it has no transect)")
     km = s.distance_m / 1000.0
     a = s.ages
-    da = (a[1] - a[0]) / 2 if a.size > 1 else 0.5
-    dx = (km[1] - km[0]) / 2 if km.size > 1 else 0.5
-    extent = (km[0] - dx, km[-1] + dx, a[-1] + da, a[0] - da)  # youngest at the top
+    # cell edges halfway between neighbours: the chart's ages are not evenly spaced
+    # (the slices' own ages sit among the even ones)
+    a_edges, km_edges = _edges(a), _edges(km)
+    extent = (km_edges[0], km_edges[-1], a_edges[-1], a_edges[0])  # youngest at the top
     with figure_style():
         if ax is None:
             ax = new_figure(7.5, 5.6).add_axes((0.09, 0.25, 0.74, 0.67))
@@ -91,15 +92,14 @@ def wheeler_chart(
             )
         )
         masked = np.ma.masked_less(s.ranks, 0)
-        ax.imshow(
+        ax.pcolormesh(
+            km_edges,
+            a_edges,
             masked,
             cmap=belt_cmap(scheme),
             vmin=-0.5,
             vmax=scheme.n_belts - 0.5,
-            extent=extent,
-            origin="upper",
-            aspect="auto",
-            interpolation="nearest",
+            shading="flat",
             zorder=1,
         )
         ax.set_xlim(extent[0], extent[1])
@@ -218,3 +218,17 @@ def wheeler_chart(
             columnspacing=1.2,
         )
     return ax
+
+
+def _edges(centres: np.ndarray) -> np.ndarray:
+    """Cell edges around increasing centres: halfway between neighbours, the ends half
+    a step out.
+
+    >>> _edges(np.array([0.0, 1.0, 3.0])).tolist()
+    [-0.5, 0.5, 2.0, 4.0]
+    """
+    c = np.asarray(centres, dtype=float)
+    if c.size < 2:
+        return np.array([c[0] - 0.5, c[0] + 0.5]) if c.size else np.array([0.0, 1.0])
+    mid = (c[1:] + c[:-1]) / 2
+    return np.concatenate([[c[0] - (mid[0] - c[0])], mid, [c[-1] + (c[-1] - mid[-1])]])
