@@ -30,8 +30,8 @@ from .belts import cell_field_at, classify, node_field
 if TYPE_CHECKING:
     import pandas as pd
 
-    from .grid import Grid
     from .field.engine import FittedField
+    from .grid import Grid
     from .project import Project, Slice
     from .records import Records
 
