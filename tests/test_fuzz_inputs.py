@@ -460,6 +460,7 @@ _CATALOGUED = (
     "io/sources.py",
     "io/sheets.py",
     "io/assemble.py",
+    "io/las.py",
     "io/atomic.py",
     "cli/demo.py",
 )

@@ -50,6 +50,13 @@ INPUT_KEYS = (
     "depth_reference",
     "columns",
     "sheets",
+    "logs",
+    "facies_curve",
+    "facies_codes",
+    "well_id",
+    "position",
+    "datum",
+    "top_elevation",
 )
 """Every key of the ``[inputs]`` table."""
 
