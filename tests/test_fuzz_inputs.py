@@ -461,6 +461,7 @@ _CATALOGUED = (
     "io/sheets.py",
     "io/assemble.py",
     "io/las.py",
+    "io/ags.py",
     "io/atomic.py",
     "cli/demo.py",
 )

@@ -185,7 +185,14 @@ def read_tables(cfg, root: Path, project_file: str, log: ProblemLog, *, source, 
         target = source("inputs.ags", sources.ags)
         if target is not None:
             made = read_ags(
-                target, sources, project_file, cfg.depth_unit, log, out.origins, readers
+                target,
+                sources,
+                project_file,
+                cfg.depth_unit,
+                log,
+                out.origins,
+                readers,
+                scheme=cfg.scheme,
             )
             for key, table in made.items():
                 if table is not None and names.get(key) is None:

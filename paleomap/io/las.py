@@ -48,7 +48,7 @@ import pandas as pd
 
 from ..errors import ProblemLog
 from .assemble import Origins, Where
-from .sources import InputSources, code_text
+from .sources import InputSources, code_text, length_factor
 
 __all__ = ["LAS_SUFFIXES", "intervals_from_samples", "parse_coordinate", "read_logs"]
 
@@ -57,18 +57,6 @@ logger = logging.getLogger(__name__)
 LAS_SUFFIXES = (".las",)
 """Suffixes of the LAS files taken from a folder (any case)."""
 
-_UNITS_M = {
-    "M": 1.0,
-    "METER": 1.0,
-    "METERS": 1.0,
-    "METRE": 1.0,
-    "METRES": 1.0,
-    "F": 0.3048,
-    "FT": 0.3048,
-    "FEET": 0.3048,
-    "FOOT": 0.3048,
-}
-_DEPTH_UNIT_M = {"m": 1.0, "ft": 0.3048}
 _SECTIONS = {
     "V": "~Version section",
     "W": "~Well section",
@@ -376,8 +364,6 @@ def _read_one(path, shown, sources, depth_unit, log, codes, crs, positions, chec
         ok = False
 
     # -- elevations ------------------------------------------------------------------------
-    factor_cache: dict = {}
-
     def elevation(mnemonic: str, column: str) -> None:
         found = _header(las, mnemonic)
         if found is None or not _text(found[1].value):
@@ -386,7 +372,7 @@ def _read_one(path, shown, sources, depth_unit, log, codes, crs, positions, chec
         where = at(key, mnemonic)
         header[f"@{column}"] = where
         value = _number(item.value)
-        factor = _factor(item.unit, depth_unit, factor_cache) if item.unit else 1.0
+        factor = length_factor(item.unit, depth_unit) if item.unit else 1.0
         if value is None or factor is None:
             header[column] = _text(item.value)
             if factor is None:
@@ -451,7 +437,7 @@ def _read_one(path, shown, sources, depth_unit, log, codes, crs, positions, chec
             "give the unit of the depth curve in the ~Curve section, e.g. DEPT.M or DEPT.FT",
         )
         return cid, header, None
-    factor = _factor(unit, depth_unit, factor_cache)
+    factor = length_factor(unit, depth_unit)
     if factor is None:
         bad(
             index_where,
@@ -671,16 +657,6 @@ def _datum_mnemonics(las, chosen: str | None) -> list[str]:
             short = {"KELLY BUSHING": "KB", "DERRICK FLOOR": "DF", "GROUND LEVEL": "GL"}
             out.append("E" + short.get(text, text.replace(" ", "")))
     return [*out, "EKB", "EDF"]
-
-
-def _factor(unit: str, depth_unit: str | None, cache: dict) -> float | None:
-    """Length of one ``unit`` in the project's depth unit; None when unknown."""
-    unit = unit.strip().upper()
-    if unit not in _UNITS_M:
-        return None
-    if depth_unit is None:
-        return 1.0
-    return _UNITS_M[unit] / _DEPTH_UNIT_M[depth_unit]
 
 
 def _geographic(crs) -> bool:
