@@ -460,10 +460,10 @@ def _read_one(path, shown, sources, depth_unit, log, codes, crs, positions, chec
     if len(depths) == 0:
         bad(section("A"), None, "has no data rows", "the ~ASCII section holds the samples")
         return cid, header, None
-    bad = np.flatnonzero(~np.isfinite(depths))
-    if bad.size:
+    null_rows = np.flatnonzero(~np.isfinite(depths))
+    if null_rows.size:
         bad(
-            row_where(int(bad[0]), index_item.mnemonic),
+            row_where(int(null_rows[0]), index_item.mnemonic),
             None,
             "has a null or missing depth",
             "every row needs a depth",
