@@ -29,11 +29,44 @@ def test_import_does_not_load_matplotlib():
     assert out.stdout.strip() == "False"
 
 
-def test_every_module_declares_all():
+def _declared_all(path: Path):
+    """The names a module's ``__all__ = [...]`` assigns at module level (None if none)."""
+    import ast
+
+    for node in ast.parse(path.read_text(encoding="utf-8")).body:
+        targets = (
+            node.targets
+            if isinstance(node, ast.Assign)
+            else [node.target]
+            if isinstance(node, ast.AnnAssign)
+            else []
+        )
+        if any(isinstance(t, ast.Name) and t.id == "__all__" for t in targets):
+            return ast.literal_eval(node.value)
+    return None
+
+
+def test_every_module_declares_all_and_defines_what_it_lists():
+    import importlib
+
     for path in (ROOT / "paleomap").rglob("*.py"):
         if path.name == "_version.py":
             continue
-        assert "__all__" in path.read_text(), path
+        names = _declared_all(path)
+        assert names is not None, f"{path}: no module-level __all__ assignment"
+        assert len(set(names)) == len(names), f"{path}: __all__ repeats a name"
+        parts = path.relative_to(ROOT).with_suffix("").parts
+        module = importlib.import_module(".".join(p for p in parts if p != "__init__"))
+        for name in names:
+            assert hasattr(module, name), f"{path}: __all__ lists {name!r}, which is not defined"
+
+
+def test_the_all_reader_is_not_fooled_by_the_text(tmp_path):
+    text = '"""Mentions __all__ only in prose."""\n\ndef f():\n    __all__ = ["f"]\n'
+    (tmp_path / "m.py").write_text(text)
+    assert _declared_all(tmp_path / "m.py") is None
+    (tmp_path / "n.py").write_text('__all__: list[str] = ["a", "b"]\n')
+    assert _declared_all(tmp_path / "n.py") == ["a", "b"]
 
 
 def test_versions_command_names_paleomap_and_gdal():

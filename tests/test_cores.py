@@ -9,8 +9,9 @@ import pytest
 from hypothesis import given
 from hypothesis import strategies as st
 
-from paleomap.cores import Core, Interval, Pick, build_cores, parse_number
+from paleomap.cores import Core, Interval, Pick
 from paleomap.errors import InputError, PaleomapWarning, ProblemLog
+from paleomap.io.core_tables import build_cores, parse_number
 from paleomap.project import Surface
 from paleomap.scheme import builtin_scheme
 

@@ -1,4 +1,5 @@
-"""Tests of paleomap.project: parsing the project file, key lines, slices, working CRS."""
+"""Tests of the project's settings: parsing the project file (paleomap.io.project_file),
+key lines, slices, the working CRS (paleomap.crs)."""
 
 from __future__ import annotations
 
@@ -7,16 +8,10 @@ import pyproj
 import pytest
 from conftest import DEFAULT_CONFIG, to_toml
 
+from paleomap.crs import working_crs_for
 from paleomap.errors import InputError, ProblemLog
-from paleomap.project import (
-    MappingSettings,
-    MigrationSettings,
-    Slice,
-    TomlLocator,
-    age_name,
-    parse_config,
-    working_crs_for,
-)
+from paleomap.io.project_file import TomlLocator, parse_config
+from paleomap.project import MappingSettings, MigrationSettings, Slice, age_name
 
 
 def _config(**tables) -> str:

@@ -121,7 +121,7 @@ def read_ags(
     -------
     dict
         ``"cores"``, ``"intervals"`` and ``"picks"`` (absent without ``ags_formation``):
-        the tables :func:`paleomap.cores.build_cores` reads, with ``attrs["name"]``;
+        the tables :func:`paleomap.io.core_tables.build_cores` reads, with ``attrs["name"]``;
         their lines are the file's lines.
     """
     shown = sources.ags

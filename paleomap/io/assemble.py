@@ -4,7 +4,7 @@
 vector file, LAS files, AGS4 file), renames the user's columns, and brings depths given
 in log depth to depths below the core top. The result is the three tables the CSV path
 has always produced (text or number cells and a ``line`` per row), so one validation
-(:func:`paleomap.cores.build_cores`) serves every source.
+(:func:`paleomap.io.core_tables.build_cores`) serves every source.
 
 Validation reports a problem at a table's name, line and column. For a table that is not
 a plain CSV file that place means little, so :class:`Origins` remembers where each row
@@ -32,8 +32,8 @@ from pathlib import Path
 
 import pandas as pd
 
-from ..cores import parse_number
 from ..errors import Problem, ProblemLog
+from .core_tables import parse_number
 from .sheets import SHEET_SUFFIXES, read_sheet_table, sheet_place
 from .sources import TABLE_COLUMNS, InputSources
 
@@ -118,7 +118,7 @@ class Origins:
 
 @dataclass
 class Tables:
-    """The three tables of a project, as :func:`paleomap.cores.build_cores` reads them.
+    """The three tables of a project, as :func:`paleomap.io.core_tables.build_cores` reads them.
 
     ``files`` names each table in messages; ``origins`` maps problems back to the files.
     """

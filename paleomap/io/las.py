@@ -107,7 +107,7 @@ def read_logs(
     Returns
     -------
     cores, intervals : pandas.DataFrame or None
-        The tables :func:`paleomap.cores.build_cores` reads, with ``attrs["name"]``
+        The tables :func:`paleomap.io.core_tables.build_cores` reads, with ``attrs["name"]``
         naming them in messages; lines are keys of ``origins``.
     """
     where_key = (project_file, sources.lines.get("inputs.logs"), "inputs.logs")

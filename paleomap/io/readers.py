@@ -1,9 +1,10 @@
 """Reading a project: the project file and every table and vector file it names.
 
 This is the only module that opens the user's input files. :func:`load_project`
-reads everything, hands the content to the validators (:func:`paleomap.project.parse_config`,
-:func:`paleomap.cores.build_cores`) and collects every problem of every file into one
-:class:`~paleomap.errors.InputError`. Loading never writes anything.
+reads everything, hands the content to the validators
+(:func:`paleomap.io.project_file.parse_config`, :func:`paleomap.io.core_tables.build_cores`)
+and collects every problem of every file into one :class:`~paleomap.errors.InputError`.
+Loading never writes anything.
 
 CSV files are UTF-8 (a byte-order mark is tolerated), comma separated, with a header
 row; whitespace around cells and column names is ignored, column names are matched
@@ -33,10 +34,12 @@ import pandas as pd
 import pyproj
 
 from ..agemodel import build_age_models, sample_slices
-from ..cores import build_cores, parse_number
+from ..crs import working_crs_for
 from ..errors import ProblemLog
-from ..project import Project, ProjectConfig, TomlLocator, parse_config, working_crs_for
+from ..project import Project
 from .assemble import read_tables
+from .core_tables import build_cores, parse_number
+from .project_file import ProjectConfig, TomlLocator, parse_config
 from .sources import header_names
 
 __all__ = ["CORE_COLUMNS", "INTERVAL_COLUMNS", "PICK_COLUMNS", "load_project", "read_csv_table"]

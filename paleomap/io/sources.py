@@ -4,7 +4,7 @@ The cores, intervals and picks tables may come from CSV files, spreadsheets (``.
 ``.ods``), LAS well-log files (:mod:`paleomap.io.las`) or an AGS4 borehole file
 (:mod:`paleomap.io.ags`). Whatever the source, :mod:`paleomap.io.assemble` turns it into
 the same three tables the CSV path produces, so the validation of
-:func:`paleomap.cores.build_cores` is one for all.
+:func:`paleomap.io.core_tables.build_cores` is one for all.
 
 This module reads the settings that say how (:class:`InputSources`): the column
 mapping, the sheets, the depth reference, the LAS and AGS4 options.
