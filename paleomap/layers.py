@@ -20,12 +20,14 @@ import shapely
 if TYPE_CHECKING:
     from .pipeline import BuildResult
 
-__all__ = ["GEOMETRY_TYPES", "LAYER_ORDER", "build_layers"]
+__all__ = ["GEOMETRY_TYPES", "LAYER_ORDER", "TURNAROUND_KINDS", "build_layers"]
 
 LAYER_ORDER = (
     "cores",
     "core_slices",
     "core_contacts",
+    "turnarounds",
+    "gaps",
     "facies_belts",
     "shorelines",
     "shoreline_bands",
@@ -42,6 +44,8 @@ GEOMETRY_TYPES = {
     "cores": "Point",
     "core_slices": "Point",
     "core_contacts": "Point",
+    "turnarounds": "Point",
+    "gaps": "Point",
     "facies_belts": "MultiPolygon",
     "shorelines": "MultiLineString",
     "shoreline_bands": "MultiPolygon",
@@ -70,6 +74,65 @@ def _multi(geom, kind):
     return geom
 
 
+TURNAROUND_KINDS = {"MFS": "maximum flooding", "MRS": "maximum regressive"}
+"""The ``kind`` written in the ``turnarounds`` layer for each suggested turnaround."""
+
+_TURNAROUND_FIELDS = (
+    "core_id",
+    "kind",
+    "depth",
+    "depth_top",
+    "depth_base",
+    "age",
+    "confidence",
+    "cycle",
+    "belt",
+    "change_below_ranks",
+    "change_above_ranks",
+    "nearest_surface",
+    "surface_distance",
+)
+_GAP_FIELDS = ("core_id", "top", "base", "thickness", "lower", "upper", "jump_ranks")
+
+
+def _depth_named(frame: pd.DataFrame, unit: str, names) -> pd.DataFrame:
+    """Depth fields renamed with the project's depth unit (``depth`` -> ``depth_m``)."""
+    return frame.rename(columns={n: f"{n}_{unit}" for n in names if n in frame.columns})
+
+
+def _turnaround_layer(reading, unit: str, crs) -> gpd.GeoDataFrame:
+    """Every suggested maximum flooding / maximum regressive surface, one point each."""
+    depth_fields = ("depth", "depth_top", "depth_base", "surface_distance")
+    if reading is None or not len(reading.turnarounds):
+        empty = _depth_named(pd.DataFrame(columns=list(_TURNAROUND_FIELDS)), unit, depth_fields)
+        return _gdf([], list(empty.columns), crs)
+    t = reading.turnarounds
+    frame = t.rename(
+        columns={"change_below": "change_below_ranks", "change_above": "change_above_ranks"}
+    )
+    frame = frame.assign(kind=frame["kind"].map(TURNAROUND_KINDS))[list(_TURNAROUND_FIELDS)]
+    return gpd.GeoDataFrame(
+        _depth_named(frame.reset_index(drop=True), unit, depth_fields),
+        geometry=shapely.points(t["easting"].to_numpy(), t["northing"].to_numpy()),
+        crs=crs,
+    )
+
+
+def _gap_layer(reading, unit: str, crs) -> gpd.GeoDataFrame:
+    """Every unrecovered depth range (no record between two logged intervals)."""
+    depth_fields = ("top", "base", "thickness")
+    if reading is None or not len(reading.gaps):
+        empty = _depth_named(pd.DataFrame(columns=list(_GAP_FIELDS)), unit, depth_fields)
+        return _gdf([], list(empty.columns), crs)
+    g = reading.gaps
+    frame = g.rename(columns={"jump": "jump_ranks"})[list(_GAP_FIELDS)]
+    return gpd.GeoDataFrame(
+        _depth_named(frame.reset_index(drop=True), unit, depth_fields),
+        geometry=shapely.points(g["easting"].to_numpy(), g["northing"].to_numpy()),
+        crs=crs,
+    )
+
+
 def build_layers(result: BuildResult) -> dict[str, pd.DataFrame]:
     """Every layer and table of ``paleomap.gpkg`` from a finished build."""
     project = result.project
@@ -90,10 +153,13 @@ def build_layers(result: BuildResult) -> dict[str, pd.DataFrame]:
         }
     )
     if reading is not None and len(reading.cores):
+        # the reading repeats the position and the interval count: keep one of each, so
+        # no join leaves a pair of _x/_y columns
         extra = reading.cores.drop(
-            columns=[c for c in ("easting", "northing") if c in reading.cores.columns]
+            columns=[c for c in reading.cores.columns if c in cores.columns and c != "core_id"]
+            + [c for c in ("easting", "northing") if c in reading.cores.columns]
         )
-        cores = cores.merge(extra, on="core_id", how="left")
+        cores = cores.merge(extra, on="core_id", how="left", validate="one_to_one")
     cores_gdf = gpd.GeoDataFrame(
         cores,
         geometry=shapely.points(
@@ -118,6 +184,9 @@ def build_layers(result: BuildResult) -> dict[str, pd.DataFrame]:
         )
     else:
         contacts = _gdf([], ["core_id", "depth", "lower", "upper", "jump", "flag"], crs)
+
+    turnarounds = _turnaround_layer(reading, project.depth_unit, crs)
+    gaps = _gap_layer(reading, project.depth_unit, crs)
 
     belt_rows, line_rows, band_rows, quality_rows = [], [], [], []
     boundary = scheme.boundary_name(scheme.tracked_boundary)
@@ -191,6 +260,8 @@ def build_layers(result: BuildResult) -> dict[str, pd.DataFrame]:
         "cores": cores_gdf,
         "core_slices": core_slices,
         "core_contacts": contacts,
+        "turnarounds": turnarounds,
+        "gaps": gaps,
         "facies_belts": facies_belts,
         "shorelines": shorelines,
         "shoreline_bands": bands,

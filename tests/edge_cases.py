@@ -193,7 +193,7 @@ INVALID = [
         "unknown-facies",
         {"intervals": replace_line(INTERVALS, 2, "C1,0,10,marl")},
         "intervals.csv",
-        "is not a facies of the 'siliciclastic' scheme",
+        "is not a facies of the 'siliciclastic_lithology' scheme",
         "marl",
         "facies",
         2,

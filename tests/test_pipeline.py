@@ -28,6 +28,7 @@ FEATURE_LAYERS = {
     "cores": "POINT",
     "core_slices": "POINT",
     "core_contacts": "POINT",
+    "turnarounds": "POINT",
     "facies_belts": "MULTIPOLYGON",
     "shorelines": "MULTILINESTRING",
     "shoreline_bands": "MULTIPOLYGON",
@@ -231,6 +232,29 @@ def test_core_reading_is_in_the_geopackage(demo):
     pairs = pyogrio.read_dataframe(out / GPKG_NAME, layer="slice_pairs")
     assert {"n_deepening", "n_shallowing", "agreement"} <= set(pairs.columns)
     assert (pairs["agreement"] != "disagree").all()
+
+
+def test_turnarounds_and_gaps_layers(demo):
+    # The stacking docs promise both tables; they are point layers at the cores.
+    project, result, out = demo
+    turns = gpd.read_file(out / GPKG_NAME, layer="turnarounds")
+    assert len(turns) == len(result.reading.turnarounds) > 0
+    assert set(turns["kind"]) <= {"maximum flooding", "maximum regressive"}
+    assert {"core_id", "depth_m", "age", "confidence", "cycle"} <= set(turns.columns)
+    assert turns["confidence"].between(0, 1).all()
+    gaps = pyogrio.read_info(out / GPKG_NAME, layer="gaps")
+    assert gaps["geometry_type"] == "Point" and gaps["features"] == len(result.reading.gaps)
+    assert {"core_id", "top_m", "base_m", "thickness_m"} <= set(gaps["fields"])
+
+
+def test_no_leftover_join_columns(demo):
+    _, _, out = demo
+    for name, _ in pyogrio.list_layers(out / GPKG_NAME):
+        fields = pyogrio.read_info(out / GPKG_NAME, layer=name)["fields"]
+        left = [f for f in fields if f.endswith(("_x", "_y"))]
+        assert not left, (name, left)
+    cores = pyogrio.read_info(out / GPKG_NAME, layer="cores")["fields"]
+    assert list(cores).count("n_intervals") == 1
 
 
 def test_area_polygon_and_user_transects_are_used(tmp_path):

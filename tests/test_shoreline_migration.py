@@ -23,6 +23,7 @@ import shapely
 
 from paleomap.io.readers import load_project
 from paleomap.pipeline import compute
+from paleomap.scheme import builtin_scheme
 from paleomap.synthetic import make_basin, write_project
 
 # Sea level in m at ages in ka: a rise, a fall, a rise.
@@ -39,6 +40,9 @@ def _planar(tmp_path, *, age_unit="ka", scale=1.0, name="planar"):
         layout="grid",
         seed=0,
         relief_amplitude_m=0.0,
+        # the five grain-size classes with their wide sand belt: the test is about the
+        # geometry of a shift, not about a scheme
+        scheme=builtin_scheme("siliciclastic_lithology", ("coarse_sand", "fine_sand")),
         rates_m_per_kyr=(RATE,) * 5,
         subsidence_m_per_kyr_per_km=0.0,
         sea_level=[(a * scale, z) for a, z in SEA],

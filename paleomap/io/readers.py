@@ -235,6 +235,7 @@ def load_project(path: str | os.PathLike) -> Project:
         grid=grid,
         mapping=cfg.mapping,
         migration=migration,
+        reading=cfg.reading,
         area=area,
         transect_lines=transect_lines,
         config_text=text,
