@@ -36,6 +36,7 @@ from ..agemodel import build_age_models, sample_slices
 from ..cores import build_cores, parse_number
 from ..errors import ProblemLog
 from ..project import Project, ProjectConfig, TomlLocator, parse_config, working_crs_for
+from ..scheme import name_key, suggest_names
 
 __all__ = ["CORE_COLUMNS", "INTERVAL_COLUMNS", "PICK_COLUMNS", "load_project", "read_csv_table"]
 
@@ -770,10 +771,17 @@ class _BeltNames:
     def __init__(self, belts):
         self.name = "custom"
         self.ids = tuple(b.id for b in belts)
-        self._lookup = {n: r for r, b in enumerate(belts) for n in b.names()}
+        self._names = [n for b in belts for n in b.names()]
+        self._lookup = {k: r for r, b in enumerate(belts) for k in b.keys()}
 
     def rank(self, facies: str) -> int | None:
-        return self._lookup.get(str(facies).strip().lower())
+        return self._lookup.get(name_key(facies))
+
+    def names(self) -> list[str]:
+        return list(self._names)
+
+    def suggest(self, facies: str) -> list[str]:
+        return suggest_names(facies, self._names)
 
 
 def _belt_names(cfg: ProjectConfig):
