@@ -504,7 +504,7 @@ INVALID = [
         "unknown-builtin",
         {"keys": {"scheme.builtin": "evaporite"}},
         "project.toml",
-        "is not allowed",
+        "is not a built-in scheme",
         "evaporite",
         "scheme.builtin",
         toml_line="builtin =",
