@@ -475,7 +475,7 @@ INVALID = [
     # -- schemes ----------------------------------------------------------------------------------
     Broken(
         "marine-not-contiguous",
-        {"config": {"scheme": {"builtin": REMOVE, "belts": _CUSTOM_BELTS}}},
+        {"config": {"scheme": {"builtin": REMOVE, "track": REMOVE, "belts": _CUSTOM_BELTS}}},
         "project.toml",
         "marine belts are not one contiguous distal run",
         ["beach", "offshore"],
@@ -515,6 +515,7 @@ INVALID = [
             "config": {
                 "scheme": {
                     "builtin": REMOVE,
+                    "track": REMOVE,
                     "belts": [
                         {"id": "land", "marine": False},
                         {"id": "sea", "marine": True, "colour": "#112233"},

@@ -64,6 +64,7 @@ def two_belt_project(folder: Path) -> Path:
         "surfaces": [{"name": "s1", "age": 10.0}, {"name": "s2", "age": 20.0}],
         "scheme": {
             "builtin": REMOVE,
+            "track": REMOVE,
             "name": "coast",
             "belts": [
                 {"id": "land", "marine": False},
