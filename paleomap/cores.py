@@ -202,13 +202,13 @@ def build_cores(
     >>> cores = pd.DataFrame({"core_id": ["A"], "easting": [0.0], "northing": [0.0]})
     >>> intervals = pd.DataFrame(
     ...     {"core_id": ["A", "A"], "top": [0.0, 4.0], "base": [4.0, 9.0],
-    ...      "facies": ["clay", "Fine Sand"]})
+    ...      "facies": ["offshore", "Upper Shoreface"]})
     >>> picks = pd.DataFrame({"core_id": ["A", "A"], "surface": ["s1", "s2"],
     ...                       "depth": [1.0, 8.0]})
-    >>> (core,) = build_cores(cores, intervals, picks, builtin_scheme("siliciclastic"),
+    >>> (core,) = build_cores(cores, intervals, picks, builtin_scheme("shoreface_shelf"),
     ...                       [Surface("s1", 100.0), Surface("s2", 200.0)])
     >>> [iv.rank for iv in core.intervals], core.pick_depth("s2")
-    ([4, 2], 8.0)
+    ([5, 3], 8.0)
     """
     own_log = log is None
     log = ProblemLog() if log is None else log

@@ -30,6 +30,7 @@ from .scheme import (
     Belt,
     Scheme,
     _scheme_problems,
+    builtin_belts,
     builtin_scheme,
     lithology_track_problem,
 )
@@ -369,7 +370,7 @@ def parse_config(
     ... name = "top"
     ... age = 100
     ... [scheme]
-    ... builtin = "siliciclastic"
+    ... builtin = "shoreface_shelf"
     ... [grid]
     ... cell_size = 250
     ... ''')
@@ -833,11 +834,16 @@ class _ConfigReader:
                 return None
             if builtin in LITHOLOGY_SCHEMES and track is None:
                 p = lithology_track_problem(builtin)
+                self.belts = builtin_belts(builtin)
                 self.err((*path, "builtin"), builtin, p.message, p.hint)
                 return None
             try:
                 base = builtin_scheme(builtin, track)
             except InputError as exc:
+                # the belts as read still let the facies be checked in the same pass
+                belts_as_read = builtin_belts(builtin)
+                if belts_as_read is not None:
+                    self.belts = belts_as_read
                 for p in exc.problems:
                     key = tuple(p.column.split(".")) if p.column else path
                     self.err(key, p.value, p.message, p.hint)

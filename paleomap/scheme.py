@@ -49,6 +49,7 @@ __all__ = [
     "RETIRED_SCHEMES",
     "Belt",
     "Scheme",
+    "builtin_belts",
     "builtin_scheme",
     "custom_scheme",
     "lithology_track_problem",
@@ -536,6 +537,21 @@ def lithology_track_problem(name: str, column: str = "scheme.track") -> Problem:
         f"write track = one of {listed}, or use an environment scheme "
         f"({', '.join(ENVIRONMENT_SCHEMES)})",
     )
+
+
+def builtin_belts(name: str) -> tuple[Belt, ...] | None:
+    """The belts of a built-in scheme (None for an unknown name), whatever its track.
+
+    >>> [b.id for b in builtin_belts("carbonate_lithology")][:2]
+    ['grainstone', 'packstone']
+    """
+    if name in _LITHOLOGY:
+        return _with_colors(_LITHOLOGY[name][0]())
+    if name == "shoreface_shelf":
+        return _shoreface_shelf().belts
+    if name == "carbonate_ramp":
+        return _carbonate_ramp().belts
+    return None
 
 
 def builtin_scheme(name: str, track: tuple[str, str] | None = None) -> Scheme:

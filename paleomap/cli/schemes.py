@@ -27,8 +27,9 @@ def scheme_text(scheme: Scheme) -> list[str]:
     Examples
     --------
     >>> from paleomap.scheme import builtin_scheme
-    >>> print(scheme_text(builtin_scheme("shoreface_shelf"))[1][:60])
-      depositional environments, proximal to distal; tracks the
+    >>> lines = scheme_text(builtin_scheme("shoreface_shelf"))
+    >>> lines[0], "tracks the shoreline (coastal_plain|foreshore)" in lines[1]
+    ('shoreface_shelf', True)
     """
     if scheme.kind == "lithology":
         kind = (

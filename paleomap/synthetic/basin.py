@@ -259,7 +259,7 @@ class SyntheticBasin:
         Examples
         --------
         >>> b = make_basin(n_cores=5, relief_amplitude_m=0.0, truth_cell_m=1000.0,
-        ...                rates_m_per_kyr=(0, 0, 0, 0, 0), centre_elevation_m=-6.0)
+        ...                rates_m_per_kyr=(0,) * 6, centre_elevation_m=-6.0)
         >>> line = b.dip_line(0.0)
         >>> round(b.shoreline_position(line, b.sea_level.start_age), 6)
         20000.0
