@@ -28,6 +28,7 @@ LAYER_ORDER = (
     "core_contacts",
     "turnarounds",
     "gaps",
+    "control_points",
     "facies_belts",
     "shorelines",
     "shoreline_bands",
@@ -46,6 +47,7 @@ GEOMETRY_TYPES = {
     "core_contacts": "Point",
     "turnarounds": "Point",
     "gaps": "Point",
+    "control_points": "Point",
     "facies_belts": "MultiPolygon",
     "shorelines": "MultiLineString",
     "shoreline_bands": "MultiPolygon",
@@ -133,6 +135,32 @@ def _gap_layer(reading, unit: str, crs) -> gpd.GeoDataFrame:
     )
 
 
+_CONTROL_FIELDS = ("point_id", "slice", "age", "belt", "rank", "weight", "imposed", "source")
+
+
+def _control_layer(result, crs) -> gpd.GeoDataFrame:
+    """The user's control points at the slices they were used in: interpretations, kept
+    apart from the cores (their own layer, ``source = "control point"``)."""
+    scheme = result.project.scheme
+    rows = []
+    for m in result.slice_maps:
+        for pid, e, n, rank, weight in getattr(m, "control", ()):
+            rows.append(
+                dict(
+                    point_id=pid,
+                    slice=m.slice.name,
+                    age=m.slice.age,
+                    belt=scheme.ids[rank],
+                    rank=rank,
+                    weight=weight,
+                    imposed=weight >= 1.0,
+                    source="control point",
+                    geometry=shapely.Point(e, n),
+                )
+            )
+    return _gdf(rows, list(_CONTROL_FIELDS), crs)
+
+
 def build_layers(result: BuildResult) -> dict[str, pd.DataFrame]:
     """Every layer and table of ``paleomap.gpkg`` from a finished build."""
     project = result.project
@@ -186,10 +214,10 @@ def build_layers(result: BuildResult) -> dict[str, pd.DataFrame]:
         contacts = _gdf([], ["core_id", "depth", "lower", "upper", "jump", "flag"], crs)
 
     turnarounds = _turnaround_layer(reading, project.depth_unit, crs)
+    control = _control_layer(result, crs)
     gaps = _gap_layer(reading, project.depth_unit, crs)
 
     belt_rows, line_rows, band_rows, quality_rows = [], [], [], []
-    boundary = scheme.boundary_name(scheme.tracked_boundary)
     for m in result.slice_maps:
         for rank, geom in enumerate(m.polygons):
             if geom.is_empty:
@@ -206,30 +234,36 @@ def build_layers(result: BuildResult) -> dict[str, pd.DataFrame]:
                     geometry=_multi(geom, shapely.MultiPolygon),
                 )
             )
-        line_rows.append(
-            dict(
-                slice=m.slice.name,
-                age=m.slice.age,
-                boundary=boundary,
-                length_km=m.shoreline.length / 1e3,
-                geometry=_multi(m.shoreline, shapely.MultiLineString),
+        # every tracked boundary, the shoreline (or the tracked one) first, each under
+        # its own name and what a reader calls it
+        for b in scheme.tracked_boundaries:
+            bd = m.boundary(b)
+            line_rows.append(
+                dict(
+                    slice=m.slice.name,
+                    age=m.slice.age,
+                    boundary=scheme.boundary_name(b),
+                    boundary_label=scheme.boundary_label(b),
+                    length_km=bd["line"].length / 1e3,
+                    geometry=_multi(bd["line"], shapely.MultiLineString),
+                )
             )
-        )
-        band_rows.append(
-            dict(
-                slice=m.slice.name,
-                age=m.slice.age,
-                boundary=boundary,
-                area_km2=m.band.area / 1e6,
-                geometry=_multi(m.band, shapely.MultiPolygon),
+            band_rows.append(
+                dict(
+                    slice=m.slice.name,
+                    age=m.slice.age,
+                    boundary=scheme.boundary_name(b),
+                    boundary_label=scheme.boundary_label(b),
+                    area_km2=bd["band"].area / 1e6,
+                    geometry=_multi(bd["band"], shapely.MultiPolygon),
+                )
             )
-        )
         quality_rows.append(dict(slice=m.slice.name, age=m.slice.age, **m.quality))
     # A slice with no boundary in the mapped area keeps its row (with an empty line),
     # so the GIS and the report show that it was looked for and not found.
     facies_belts = _gdf(belt_rows, ["slice", "age", "belt", "rank", "marine", "area_km2"], crs)
-    shorelines = _gdf(line_rows, ["slice", "age", "boundary", "length_km"], crs)
-    bands = _gdf(band_rows, ["slice", "age", "boundary", "area_km2"], crs)
+    shorelines = _gdf(line_rows, ["slice", "age", "boundary", "boundary_label", "length_km"], crs)
+    bands = _gdf(band_rows, ["slice", "age", "boundary", "boundary_label", "area_km2"], crs)
     quality = pd.DataFrame(quality_rows)
 
     transects = _gdf(
@@ -247,8 +281,17 @@ def build_layers(result: BuildResult) -> dict[str, pd.DataFrame]:
         ["transect", "azimuth_deg", "length_km", "source", "lsq_rate_m_per_kyr"],
         crs,
     )
-    # result.shifts has the layer's columns already (empty builds included)
-    shifts = gpd.GeoDataFrame(result.shifts.copy(), geometry="geometry", crs=crs)
+    # result.shifts has the layer's columns already (empty builds included); a further
+    # tracked boundary's rows follow the tracked one's
+    other = getattr(result, "other_boundaries", {}) or {}
+
+    def both(frame, key):
+        extra = other.get(key)
+        if extra is None or not len(extra):
+            return frame.reset_index(drop=True)
+        return pd.concat([frame, extra], ignore_index=True)
+
+    shifts = gpd.GeoDataFrame(both(result.shifts, "shifts"), geometry="geometry", crs=crs)
 
     run_info = pd.DataFrame(
         [
@@ -256,19 +299,34 @@ def build_layers(result: BuildResult) -> dict[str, pd.DataFrame]:
             for k, v in result.run_info.items()
         ]
     )
+    # units in every field name: depths carry the project's depth unit, rank counts "ranks"
+    u = project.depth_unit
+    cores_gdf = _depth_named(cores_gdf, u, ("elevation", "mfs_depth", "mrs_depth")).rename(
+        columns={
+            "top_depth": f"top_depth_{u}",
+            "base_depth": f"base_depth_{u}",
+            "rank_change": "rank_change_ranks",
+            "slope_rank_per_m": "slope_ranks_per_m",
+        }
+    )
+    core_slices = _depth_named(core_slices, u, ("depth",))
+    contacts = _depth_named(contacts, u, ("depth", "surface_distance")).rename(
+        columns={"jump": "jump_ranks"}
+    )
     return {
         "cores": cores_gdf,
         "core_slices": core_slices,
         "core_contacts": contacts,
         "turnarounds": turnarounds,
         "gaps": gaps,
+        "control_points": control,
         "facies_belts": facies_belts,
         "shorelines": shorelines,
         "shoreline_bands": bands,
         "transects": transects,
         "shoreline_shifts": shifts,
-        "shoreline_positions": result.positions.reset_index(drop=True),
-        "slice_pairs": result.slice_pairs.reset_index(drop=True),
+        "shoreline_positions": both(result.positions, "positions"),
+        "slice_pairs": both(result.slice_pairs, "slice_pairs"),
         "slice_quality": quality,
         "run_info": run_info,
     }

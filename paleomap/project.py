@@ -219,6 +219,9 @@ class Project:
     mapping: MappingSettings = field(default_factory=MappingSettings)
     migration: MigrationSettings = field(default_factory=MigrationSettings)
     reading: ReadingOptions = field(default_factory=ReadingOptions)
+    control_points: tuple = ()
+    """The user's control points (:class:`paleomap.control.ControlPoint`), pseudo-cores
+    that impose an interpretation; never cores."""
     area: object | None = None
     """Area of interest (shapely Polygon/MultiPolygon in working CRS) or None."""
     transect_lines: tuple = ()
@@ -252,7 +255,7 @@ MAPPING_MODELS = ("auto", "exponential", "spherical", "gaussian", "matern32")
 
 _TABLES = {
     "project": ("name", "crs"),
-    "inputs": ("cores", "intervals", "picks", "depth_unit"),
+    "inputs": ("cores", "intervals", "picks", "depth_unit", "control_points"),
     "time": ("age_unit",),
     "surfaces": ("name", "age", "age_sd", "erosional"),
     "scheme": ("builtin", "belts", "track", "colors", "name"),
@@ -326,6 +329,7 @@ class ProjectConfig:
     mapping: MappingSettings = field(default_factory=MappingSettings)
     migration: MigrationSettings = field(default_factory=MigrationSettings)
     reading: ReadingOptions = field(default_factory=ReadingOptions)
+    control_points: str | None = None
     lines: dict = field(default_factory=dict)
     belts: tuple[Belt, ...] | None = None
 
@@ -668,6 +672,8 @@ class _ConfigReader:
             out["depth_unit"] = self.text(
                 inputs, ("inputs",), "depth_unit", choices=tuple(DEPTH_UNITS)
             )
+            out["control_points"] = self.text(inputs, ("inputs",), "control_points", False)
+            lines["inputs.control_points"] = self.locate.line_of(("inputs", "control_points"))
         time = self.table("time") or {}
         if "time" in self.data:
             out["age_unit"] = self.text(time, ("time",), "age_unit", choices=tuple(AGE_UNITS))

@@ -16,6 +16,7 @@ Checks against the outside world:
 
 from __future__ import annotations
 
+from dataclasses import replace
 from pathlib import Path
 
 import numpy as np
@@ -214,3 +215,36 @@ def test_reading_scales_are_project_settings_in_depth_units():
     st = read_cores(project).settings
     assert (st.noise_thickness, st.pick_tolerance) == (3.0, 2.5)
     assert st.contact_tolerance == pytest.approx(0.1 / 0.3048)  # the default, in ft
+
+
+# ------------------------------------------------------------ slices at erosional surfaces
+
+
+def test_a_slice_at_an_erosional_surface_reads_the_deposit_beneath():
+    import warnings
+
+    from paleomap.agemodel import sample_slices
+    from paleomap.errors import PaleomapWarning
+    from paleomap.pipeline import _warn_erosional_slices
+    from paleomap.project import Slice
+
+    scheme = builtin_scheme("shoreface_shelf")
+    # a ravinement at 4 m: transgressive offshore transition on truncated coastal plain
+    core = Core(
+        "E",
+        0.0,
+        0.0,
+        intervals=(Interval(0.0, 4.0, 4), Interval(4.0, 10.0, 1), Interval(10.0, 14.0, 3)),
+        picks=(Pick("young", 1.0), Pick("rav", 4.0), Pick("old", 12.0)),
+    )
+    surfaces = [Surface("young", 10.0), Surface("rav", 50.0, erosional=True), Surface("old", 90.0)]
+    project = _project([core], scheme, surfaces)
+    slices = (Slice("rav", 50.0, "rav"), Slice("young", 10.0, "young"))
+    project = replace(project, slices=slices)
+    table = sample_slices(project).set_index("slice")
+    assert table.loc["rav", "belt"] == "coastal_plain"  # beneath, not the lag above
+    assert table.loc["young", "belt"] == "offshore_transition"
+    with warnings.catch_warnings(record=True) as caught:
+        warnings.simplefilter("always", PaleomapWarning)
+        _warn_erosional_slices(project)
+    assert len(caught) == 1 and "deposit just beneath it" in str(caught[0].message)

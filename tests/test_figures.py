@@ -371,7 +371,12 @@ def test_position_panel_labels_every_step_with_its_rate(two_belt):
     labels = [t.get_text() for t in ax.texts]
     assert len(labels) == len(sh)
     for r in sh.itertuples():
-        assert rate_text(r.rate_m_per_kyr, r.rate_low, r.rate_high, unit=False, sep="\n") in labels
+        assert (
+            rate_text(
+                r.rate_m_per_kyr, r.rate_low_m_per_kyr, r.rate_high_m_per_kyr, unit=False, sep="\n"
+            )
+            in labels
+        )
 
 
 # ------------------------------------------------------------------- all figures

@@ -185,6 +185,10 @@ def load_project(path: str | os.PathLike) -> Project:
     elif cores_table is not None or tables["intervals"] is not None or tables["picks"] is not None:
         logger.debug("a core table is missing; cross-table checks are skipped")
 
+    control = ()
+    if cfg.control_points is not None:
+        control = _read_control_points(cfg, source, working, log, checksums, root)
+
     area = None
     grid = cfg.grid
     if grid is not None and grid.area is not None:
@@ -237,6 +241,7 @@ def load_project(path: str | os.PathLike) -> Project:
         mapping=cfg.mapping,
         migration=migration,
         reading=cfg.reading,
+        control_points=control,
         area=area,
         transect_lines=transect_lines,
         config_text=text,
@@ -763,6 +768,24 @@ def _count(value: float) -> str:
     if not np.isfinite(value):
         return "more than 1e308"
     return f"{value:,.0f}" if value < 1e15 else f"{value:.3g}"
+
+
+def _read_control_points(cfg, source, working, log, checksums, root) -> tuple:
+    """The control-points file, validated; () when it cannot be read (problems logged)."""
+    from ..control import CONTROL_COLUMNS, build_control_points
+
+    name = cfg.control_points
+    target = source("inputs.control_points", name)
+    if target is None:
+        return ()
+    table = _read_csv_checked(target, name, *CONTROL_COLUMNS, log, checksums, root)
+    if table is None or cfg.crs is None or working is None:
+        return ()
+    table = _project_cores(table, cfg.crs, working)
+    scheme = cfg.scheme if cfg.scheme is not None else _belt_names(cfg)
+    if scheme is None:
+        return ()
+    return build_control_points(table, scheme, cfg.surfaces or (), cfg.slices or (), name, log)
 
 
 class _BeltNames:
