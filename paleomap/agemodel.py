@@ -27,8 +27,8 @@ An **erosional** surface is different: what rests on it was laid down after the 
 and what lay at the surface when it formed was cut away. A slice at an erosional surface
 therefore reads, in each core that picks it, the deposit just **beneath** the pick: the
 youngest record the erosion left, older than the surface by the missing time. The build
-warns that such a slice maps the preserved record beneath the surface, not the
-landscape at its age (``docs/inputs.md``).
+notes that such a slice maps the preserved record beneath the surface, not the
+landscape at its age (``docs/inputs.md``; ``read_beneath_erosion`` in its quality row).
 
 Examples
 --------

@@ -218,7 +218,7 @@ def compute(project: Project) -> BuildResult:
     """
     sw = _Stopwatch()
     scheme = project.scheme
-    _warn_erosional_slices(project)
+    beneath = _note_erosional_slices(project)
     with sw.stage("age models"):
         age_models = build_age_models(project)
         samples = sample_slices(project, age_models=age_models)
@@ -261,6 +261,8 @@ def compute(project: Project) -> BuildResult:
     b = scheme.tracked_boundary
     with sw.stage("belts"):
         maps = _belt_maps(project, grid, fields, b)
+        for m in maps:
+            m.quality["read_beneath_erosion"] = m.slice.name in beneath
     with sw.stage("shorelines"):
         dip = regional_dip_azimuth([m.latent for m in maps], grid) if maps else 90.0
         transects, positions = _positions(project, grid, maps, dip)
@@ -297,20 +299,25 @@ def compute(project: Project) -> BuildResult:
     )
 
 
-def _warn_erosional_slices(project: Project) -> None:
-    """Say how a slice at an erosional surface is read (docs/inputs.md)."""
+def _note_erosional_slices(project: Project) -> set[str]:
+    """Say how a slice at an erosional surface is read (docs/inputs.md): in the log, and
+    as ``read_beneath_erosion`` in the slice's quality row. Returns those slices' names."""
     eros = {s.name for s in project.surfaces if s.erosional}
+    names = set()
     for sl in project.slices:
         if sl.surface in eros:
-            warnings.warn(
-                f"slice {sl.name!r} is at the erosional surface {sl.surface!r}: each core that "
-                "picks it is read in the deposit just beneath it, the youngest record the "
-                f"erosion left (older than {sl.age:g} {project.age_unit} by the missing "
-                "time); the map shows that preserved record, not the landscape at the "
-                "surface's age",
-                PaleomapWarning,
-                stacklevel=3,
+            names.add(sl.name)
+            log.info(
+                "slice %r is at the erosional surface %r: each core that picks it is read "
+                "in the deposit just beneath it, the youngest record the erosion left "
+                "(older than %g %s by the missing time); the map shows that preserved "
+                "record, not the landscape at the surface's age",
+                sl.name,
+                sl.surface,
+                sl.age,
+                project.age_unit,
             )
+    return names
 
 
 # --------------------------------------------------------------------------- field

@@ -75,7 +75,11 @@ def test_information_limit_is_below_both(scored):
 
 def test_sense_is_right_for_every_slice_pair(scored):
     _, _, _, rates = scored
-    assert rates["sense_ok"].all(), rates[["older_slice", "younger_slice", "sense", "true_sense"]]
+    # never the wrong direction; a pair whose P10-P90 spans zero says "uncertain"
+    shown = rates[["older_slice", "younger_slice", "sense", "true_sense"]]
+    assert not rates["sense_wrong"].any(), shown
+    assert (rates["sense_ok"] | (rates["sense"] == "uncertain")).all(), shown
+    assert rates["sense_ok"].mean() >= 0.7, shown
 
 
 def test_median_transect_rate_error(scored):
