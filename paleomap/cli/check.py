@@ -60,7 +60,9 @@ def summary_lines(project: Project, samples: pd.DataFrame | None = None) -> list
     lines.append(f"Scheme: {scheme.name}, {scheme.n_belts} belts, proximal to distal:")
     lines.append("  " + ", ".join(belts))
     for b in scheme.tracked_boundaries:
-        lines.append(f"  tracked boundary: {scheme.boundary_name(b)} ({scheme.boundary_label(b)})")
+        label = scheme.boundary_label(b)
+        label = "the shoreline" if label == "shoreline" else label
+        lines.append(f"  tracked boundary: {scheme.boundary_name(b)} ({label})")
 
     n_iv = sum(len(c.intervals) for c in project.cores)
     n_picks = sum(len(c.picks) for c in project.cores)
