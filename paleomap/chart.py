@@ -152,10 +152,10 @@ def wheeler_section(
     nearest = np.atleast_2d(nearest).reshape(len(xy), k)
     neighbours = [np.asarray(nb if nb else nearest[i], dtype=int) for i, nb in enumerate(near)]
 
-    # which cores record each age
+    # which cores record each age (the records may hold control points too: not cores)
     has = np.zeros((ages.size, len(ids)), dtype=bool)
     for j, a in enumerate(ages):
-        has[j, [index[c] for c in records.core_id[records.spanning(a)]]] = True
+        has[j, [index[c] for c in records.core_id[records.spanning(a)] if c in index]] = True
     recording = has.sum(axis=1)
 
     ranks = np.full((ages.size, n_pts), -1, dtype=int)

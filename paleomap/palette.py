@@ -55,8 +55,10 @@ SENSE_COLORS: dict[str, str] = {
     "transgression": "#0072b2",
     "regression": "#e69f00",
     "stillstand": "#8c8c8c",
+    "uncertain": "#d9d9d9",
 }
-"""Colours of shoreline shifts by sense (Okabe & Ito 2008 blue and orange, and a grey)."""
+"""Colours of shoreline shifts by sense (Okabe & Ito 2008 blue and orange, a grey, and a
+pale grey where the P10-P90 range of the shift spans zero)."""
 
 AGE_COLORMAP = "viridis_r"
 """Sequential colormap for ages: matplotlib's ``viridis`` (perceptually uniform, readable

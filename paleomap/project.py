@@ -23,6 +23,7 @@ __all__ = [
     "MappingSettings",
     "MigrationSettings",
     "Project",
+    "ReadingOptions",
     "Slice",
     "Surface",
     "age_name",
@@ -149,6 +150,31 @@ class MigrationSettings:
 
 
 @dataclass(frozen=True)
+class ReadingOptions:
+    """``[reading]``: the scales of the core reading, in the project's depth unit.
+
+    ``None`` takes the default of :class:`paleomap.stacking.ReadingSettings` (given there
+    in metres and converted to the depth unit).
+
+    Parameters
+    ----------
+    noise_thickness : float or None
+        Beds thinner than this are noise to the turnaround search (default 0.6 m, about
+        2 ft: four steps of a log described every 0.5 ft).
+    pick_tolerance : float or None
+        How far a pick may lie outside a turnaround's span and still be "at" it
+        (default 1 m).
+    contact_tolerance : float or None
+        How far an erosional pick may lie from a contact and still be "at" it
+        (default 0.1 m).
+    """
+
+    noise_thickness: float | None = None
+    pick_tolerance: float | None = None
+    contact_tolerance: float | None = None
+
+
+@dataclass(frozen=True)
 class Project:
     """A validated project, ready to build.
 
@@ -170,6 +196,10 @@ class Project:
     grid: GridSettings
     mapping: MappingSettings = field(default_factory=MappingSettings)
     migration: MigrationSettings = field(default_factory=MigrationSettings)
+    reading: ReadingOptions = field(default_factory=ReadingOptions)
+    control_points: tuple = ()
+    """The user's control points (:class:`paleomap.control.ControlPoint`), pseudo-cores
+    that impose an interpretation; never cores."""
     area: object | None = None
     """Area of interest (shapely Polygon/MultiPolygon in working CRS) or None."""
     transect_lines: tuple = ()

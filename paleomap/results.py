@@ -12,7 +12,7 @@ This module holds values only: no model fitting, no file input or output.
 Examples
 --------
 >>> SHIFT_COLUMNS[:3]
-('transect', 'older_slice', 'younger_slice')
+('transect', 'boundary', 'older_slice')
 >>> LAYER_COLUMNS["facies_belts"]
 ('slice', 'age', 'belt', 'rank', 'marine', 'area_km2')
 """
@@ -52,19 +52,21 @@ __all__ = [
 
 POSITION_COLUMNS = (
     "transect",
+    "boundary",
     "slice",
     "age",
     "position_m",
     "position_low_m",
     "position_high_m",
     "crossings",
+    "outside",
 )
-"""Columns of :attr:`BuildResult.positions` (the ``shoreline_positions`` table): the
-tracked boundary's position on each transect at each slice, metres from the landward
-end, with its P10 and P90."""
+"""Columns of the ``shoreline_positions`` table (``outside``: ``""``, ``"landward"`` or
+``"basinward"``, where the boundary misses the transect)."""
 
 SHIFT_COLUMNS = (
     "transect",
+    "boundary",
     "older_slice",
     "younger_slice",
     "older_age",
@@ -73,17 +75,22 @@ SHIFT_COLUMNS = (
     "shift_low_m",
     "shift_high_m",
     "rate_m_per_kyr",
-    "rate_low",
-    "rate_high",
+    "rate_low_m_per_kyr",
+    "rate_high_m_per_kyr",
+    "shift_bound",
+    "older_outside",
+    "younger_outside",
     "sense",
     "older_crossings",
     "younger_crossings",
     "geometry",
 )
-"""Columns of :attr:`BuildResult.shifts` (the ``shoreline_shifts`` layer and, without
-``geometry``, ``rates.csv``): shifts positive landward."""
+"""Columns of the ``shoreline_shifts`` layer. ``shift_bound`` is ``"at_least"`` where the
+boundary lies outside the mapped area at one slice: the shift is then at least
+``shift_m`` in its direction."""
 
 PAIR_COLUMNS = (
+    "boundary",
     "older_slice",
     "younger_slice",
     "older_age",
@@ -92,13 +99,19 @@ PAIR_COLUMNS = (
     "exposed_km2",
     "net_shift_m",
     "net_rate_m_per_kyr",
-    "net_dip_shift_m",
-    "net_dip_rate_m_per_kyr",
+    "net_shift_bound",
+    "net_normal_shift_m",
+    "median_shift_m",
+    "median_shift_low_m",
+    "median_shift_high_m",
     "median_rate_m_per_kyr",
     "transects_used",
+    "transects_bound",
     "sense",
 )
-"""Columns of :attr:`BuildResult.slice_pairs` (the ``slice_pairs`` table) from the maps."""
+"""Columns of the ``slice_pairs`` table. ``net_shift_m`` is the dip-equivalent net shift
+(net area over the boundary's extent along strike), the headline figure;
+``net_normal_shift_m`` the same net area over the boundary's length."""
 
 PAIR_CORE_COLUMNS = (
     "interval",
@@ -117,6 +130,9 @@ LAYER_ORDER = (
     "cores",
     "core_slices",
     "core_contacts",
+    "turnarounds",
+    "gaps",
+    "control_points",
     "facies_belts",
     "shorelines",
     "shoreline_bands",
@@ -133,6 +149,9 @@ GEOMETRY_TYPES = {
     "cores": "Point",
     "core_slices": "Point",
     "core_contacts": "Point",
+    "turnarounds": "Point",
+    "gaps": "Point",
+    "control_points": "Point",
     "facies_belts": "MultiPolygon",
     "shorelines": "MultiLineString",
     "shoreline_bands": "MultiPolygon",
@@ -145,8 +164,8 @@ LAYER_COLUMNS: dict[str, tuple[str, ...]] = {
     "core_slices": ("core_id", "slice", "age", "belt", "rank", "depth"),
     "core_contacts": ("core_id", "depth", "lower", "upper", "jump", "flag"),
     "facies_belts": ("slice", "age", "belt", "rank", "marine", "area_km2"),
-    "shorelines": ("slice", "age", "boundary", "length_km"),
-    "shoreline_bands": ("slice", "age", "boundary", "area_km2"),
+    "shorelines": ("slice", "age", "boundary", "boundary_label", "length_km"),
+    "shoreline_bands": ("slice", "age", "boundary", "boundary_label", "area_km2"),
     "transects": ("transect", "azimuth_deg", "length_km", "source", "lsq_rate_m_per_kyr"),
     "shoreline_shifts": SHIFT_COLUMNS[:-1],
     "shoreline_positions": POSITION_COLUMNS,
@@ -189,6 +208,16 @@ class SliceMap:
     distal: object
     stored_probabilities: np.ndarray | None = None
     quality: dict = field(default_factory=dict)
+    others: dict = field(default_factory=dict)
+    """Every further tracked boundary ``b`` -> ``{"line", "band", "distal"}``."""
+    control: tuple = ()
+    """Control points used at this slice: (point_id, easting, northing, rank, weight)."""
+
+    def boundary(self, b: int) -> dict:
+        """``{"line", "band", "distal"}`` of tracked boundary ``b``."""
+        if b == self.tracked_boundary:
+            return {"line": self.shoreline, "band": self.band, "distal": self.distal}
+        return self.others[b]
 
     def mapped_belt(self) -> np.ndarray:
         """Belt rank of each cell from the mean latent (the class the polygons show)."""
@@ -206,21 +235,26 @@ class SliceMap:
     @property
     def distal_probability(self) -> np.ndarray:
         """Probability of the distal side of the tracked boundary, (rows, cols) float32."""
-        b = self.tracked_boundary
+        return self.distal_probability_of(self.tracked_boundary)
+
+    def distal_probability_of(self, b: int) -> np.ndarray:
+        """Probability of the distal side of boundary ``b``, (rows, cols) float32."""
         if self.stored_probabilities is not None:
             return self.stored_probabilities[b:].sum(axis=0)
         from .probability import distal_probability
 
         return distal_probability(self.latent, self.latent_sd, self.thresholds[b - 1])
 
-    def distal_probability_at(self, easting, northing) -> np.ndarray:
-        """:attr:`distal_probability` interpolated at points as its contouring nodes
-        would give it, computed at the points' surrounding cells only."""
+    def distal_probability_at(self, easting, northing, b: int | None = None) -> np.ndarray:
+        """:attr:`distal_probability` (of boundary ``b``, default the tracked one)
+        interpolated at points as its contouring nodes would give it, computed at the
+        points' surrounding cells only."""
+        b = self.tracked_boundary if b is None else b
         if self.stored_probabilities is not None:
-            return node_field(self.distal_probability, self.grid).at(easting, northing)
+            return node_field(self.distal_probability_of(b), self.grid).at(easting, northing)
         from .probability import distal_probability
 
-        t = self.thresholds[self.tracked_boundary - 1]
+        t = self.thresholds[b - 1]
 
         def cells(rows, cols):
             return distal_probability(self.latent[rows, cols], self.latent_sd[rows, cols], t)
@@ -271,6 +305,9 @@ class BuildResult:
     run_info: dict
     timings: dict
     age_models: dict = field(default_factory=dict)
+    other_boundaries: dict = field(default_factory=dict)
+    """``positions``, ``shifts`` and ``slice_pairs`` of the further tracked boundaries
+    (a carbonate ramp's shoal edge), with the main tables' columns."""
     chart: WheelerSection | None = None
     records: Records | None = None
     field: FittedField | None = None
