@@ -243,3 +243,24 @@ def write_project(
 def project_path(tmp_path: Path) -> Path:
     """The default valid project, written to a temporary folder."""
     return write_project(tmp_path)
+
+
+# Helper scripts run by tests with another interpreter (PyQGIS lives in the system
+# Python), not modules of the suite.
+collect_ignore = ["qgis_probe.py"]
+
+
+@pytest.fixture(scope="session")
+def demo_build(tmp_path_factory):
+    """The demo region built once for the session (no figures, no report).
+
+    Returns ``(project, result, build folder)``.
+    """
+    from paleomap.io.readers import load_project
+    from paleomap.pipeline import compute, write_build
+
+    project = load_project(Path(__file__).parent.parent / "demo_region" / "project.toml")
+    result = compute(project)
+    out = tmp_path_factory.mktemp("demo") / "build"
+    write_build(result, out, figures=False, report=False)
+    return project, result, out

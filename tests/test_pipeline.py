@@ -38,12 +38,8 @@ TABLES = ("slice_pairs", "slice_quality", "run_info", "shoreline_positions")
 
 
 @pytest.fixture(scope="module")
-def demo(tmp_path_factory):
-    project = load_project(DEMO)
-    result = compute(project)
-    out = tmp_path_factory.mktemp("demo") / "build"
-    write_build(result, out, figures=False, report=False)
-    return project, result, out
+def demo(demo_build):
+    return demo_build
 
 
 def test_geopackage_has_every_layer_with_the_working_crs(demo):

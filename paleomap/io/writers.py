@@ -17,6 +17,7 @@ from .atomic import atomic_write_text
 from .geopackage import write_layers
 from .geotiff import write_class_raster, write_float_raster
 from .styles import belt_categories, layer_styles
+from .timeslider import PAIR_TIME, SLICE_TIME, with_slider_times
 
 if TYPE_CHECKING:
     from ..pipeline import BuildResult
@@ -26,6 +27,8 @@ __all__ = ["GPKG_NAME", "raster_names", "safe_name", "write_deliverables"]
 log = logging.getLogger(__name__)
 
 GPKG_NAME = "paleomap.gpkg"
+
+PAIR_TIME_COLUMNS = ("slider_start", "slider_end")
 
 
 def safe_name(name: str) -> str:
@@ -57,8 +60,8 @@ def write_deliverables(
     folder = Path(folder)
     project = result.project
     scheme = project.scheme
-    layers = build_layers(result)
-    styles = layer_styles(belt_categories(scheme))
+    layers = with_slider_times(build_layers(result))
+    styles = layer_styles(belt_categories(scheme), slice_time=SLICE_TIME, pair_time=PAIR_TIME)
     styles = {k: v for k, v in styles.items() if k in layers}
     log.info("writing %s", GPKG_NAME)
     write_layers(
@@ -69,7 +72,7 @@ def write_deliverables(
         geometry_types={k: v for k, v in GEOMETRY_TYPES.items() if k in layers},
     )
     _write_rasters(result, folder / "rasters")
-    shifts = layers["shoreline_shifts"].drop(columns="geometry")
+    shifts = layers["shoreline_shifts"].drop(columns=["geometry", *PAIR_TIME_COLUMNS])
     atomic_write_text(folder / "rates.csv", shifts.to_csv(index=False, float_format="%.6g"))
     if figures:
         from ..figures.all import draw_all
