@@ -18,7 +18,7 @@ from pathlib import Path
 
 
 def _color(c):
-    return "#{:02x}{:02x}{:02x}".format(c.red(), c.green(), c.blue())
+    return f"#{c.red():02x}{c.green():02x}{c.blue():02x}"
 
 
 def main(argv):
@@ -149,7 +149,9 @@ def main(argv):
         QDateTime.fromString(start_iso, Qt.ISODate), QDateTime.fromString(end_iso, Qt.ISODate)
     )
     expression = belts.temporalProperties().createFilterString(context, window)
-    shown = {f["slice"] for f in belts.getFeatures(QgsFeatureRequest().setFilterExpression(expression))}
+    shown = {
+        f["slice"] for f in belts.getFeatures(QgsFeatureRequest().setFilterExpression(expression))
+    }
     out["slider"] = {"filter": expression, "slices_shown": sorted(shown)}
     print(json.dumps(out), flush=True)
     # QGIS 3.22 can crash tearing down layers still alive at exit; the report is out.

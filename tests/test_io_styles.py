@@ -90,9 +90,7 @@ def test_layer_styles_cover_our_spatial_layers():
 
 
 def test_time_fields_go_to_the_layers_that_vary_by_slice():
-    got = layer_styles(
-        BELTS, slice_time=TimeFields("t"), pair_time=TimeFields("t0", "t1")
-    )
+    got = layer_styles(BELTS, slice_time=TimeFields("t"), pair_time=TimeFields("t0", "t1"))
     timed = {k: v.time for k, v in got.items() if v.time is not None}
     assert timed == {
         "core_slices": TimeFields("t"),

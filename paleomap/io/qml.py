@@ -124,7 +124,12 @@ def _vector(style: LayerStyle) -> ET.Element:
             ET.SubElement(
                 cats,
                 "category",
-                {"value": _literal(cat.value), "label": cat.label, "symbol": str(i), "render": "true"},
+                {
+                    "value": _literal(cat.value),
+                    "label": cat.label,
+                    "symbol": str(i),
+                    "render": "true",
+                },
             )
             symbols.append(_symbol(str(i), cat.symbol))
         if style.other is not None:
@@ -194,9 +199,7 @@ def _symbol(name: str, sym: Symbol) -> ET.Element:
             "outline_width_unit": "MM",
             "joinstyle": "round",
         }
-    layer = ET.SubElement(
-        el, "layer", {"class": cls, "enabled": "1", "locked": "0", "pass": "0"}
-    )
+    layer = ET.SubElement(el, "layer", {"class": cls, "enabled": "1", "locked": "0", "pass": "0"})
     options = ET.SubElement(layer, "Option", {"type": "Map"})
     for key, value in props.items():
         ET.SubElement(options, "Option", {"name": key, "type": "QString", "value": value})

@@ -200,7 +200,9 @@ def _symbolizer(sym: Symbol) -> ET.Element:
     ET.SubElement(mark, _se("WellKnownName")).text = sym.shape
     _params(mark, "Fill", {"fill": sym.color, "fill-opacity": _num(sym.opacity)})
     if sym.stroke_color is not None:
-        _params(mark, "Stroke", {"stroke": sym.stroke_color, "stroke-width": _px(sym.stroke_width_mm)})
+        _params(
+            mark, "Stroke", {"stroke": sym.stroke_color, "stroke-width": _px(sym.stroke_width_mm)}
+        )
     ET.SubElement(graphic, _se("Size")).text = _px(sym.size_mm)
     return el
 
