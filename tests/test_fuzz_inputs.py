@@ -457,6 +457,9 @@ _CATALOGUED = (
     "scheme.py",
     "grid.py",
     "io/readers.py",
+    "io/sources.py",
+    "io/sheets.py",
+    "io/assemble.py",
     "io/atomic.py",
     "cli/demo.py",
 )
