@@ -24,6 +24,8 @@ from dataclasses import dataclass
 
 __all__ = [
     "InputError",
+    "BuildBusyError",
+    "BuildWriteError",
     "OutputExistsError",
     "PaleomapError",
     "PaleomapWarning",
@@ -38,6 +40,17 @@ class PaleomapError(Exception):
 
 class OutputExistsError(PaleomapError, FileExistsError):
     """An output already exists and replacing it was not asked for."""
+
+
+class BuildBusyError(PaleomapError, BlockingIOError):
+    """Another paleomap process is writing the same build folder right now."""
+
+
+class BuildWriteError(PaleomapError, OSError):
+    """The system refused to write a build (no permission, disk full, busy mount point).
+
+    Raised only after the temporary folder is removed; the previous build is whole.
+    """
 
 
 class PaleomapWarning(UserWarning):
