@@ -7,7 +7,9 @@ them from the stored default style) and temporal settings; per raster its render
 classes or ramp; and, for one slice, the colours QGIS rendered at the cores' positions
 (facies belts filtered by the time slider, and the slice's belt raster).
 
-Usage: qgis_probe.py BUILD_DIR SLICE_NAME SLICE_START_ISO SLICE_END_ISO
+Usage: qgis_probe.py BUILD_DIR SLICE_NAME SLICE_START_ISO SLICE_END_ISO [OTHER_BUILD_DIR]
+
+For OTHER_BUILD_DIR only the CRS of each layer and raster is reported.
 """
 
 import json
@@ -153,6 +155,16 @@ def main(argv):
         f["slice"] for f in belts.getFeatures(QgsFeatureRequest().setFilterExpression(expression))
     }
     out["slider"] = {"filter": expression, "slices_shown": sorted(shown)}
+    if len(argv) > 5:
+        other = Path(argv[5])
+        crs = {}
+        for sub in meta.querySublayers(str(other / "paleomap.gpkg")):
+            layer = QgsVectorLayer(f"{other / 'paleomap.gpkg'}|layername={sub.name()}", "x", "ogr")
+            if layer.isSpatial():
+                crs[sub.name()] = layer.crs().authid()
+        for tif in sorted((other / "rasters").glob("*.tif")):
+            crs[tif.name] = QgsRasterLayer(str(tif), tif.stem).crs().authid()
+        out["other_crs"] = crs
     print(json.dumps(out), flush=True)
     # QGIS 3.22 can crash tearing down layers still alive at exit; the report is out.
     os._exit(0)

@@ -22,6 +22,7 @@ from pathlib import Path
 
 import pytest
 
+from paleomap.io.styles import DISTAL_STOPS, PROBABILITY_STOPS
 from paleomap.io.timeslider import slider_times
 
 SYSTEM_PYTHON = Path("/usr/bin/python3")
@@ -76,7 +77,7 @@ def test_gdal_geopackage_validator_passes(demo_build):
 
 
 @pytest.fixture(scope="module")
-def qgis_report(demo_build):
+def qgis_report(demo_build, geographic_build):
     _require("qgis.core", "python3-qgis")
     project, _, out = demo_build
     (age,) = [s.age for s in project.slices if s.name == SLICE]
@@ -89,6 +90,7 @@ def qgis_report(demo_build):
             SLICE,
             start.strftime("%Y-%m-%dT%H:%M:%SZ"),
             end.strftime("%Y-%m-%dT%H:%M:%SZ"),
+            str(geographic_build[2]),
         ],
         capture_output=True,
         text=True,
@@ -162,3 +164,33 @@ def test_rendered_slice_shows_each_core_in_its_belt_colour(qgis_report):
         assert len(found) == len(project.cores), key
         wrong = [(c, belt, got) for c, belt, got in found if got != colors[belt]]
         assert wrong == [], key
+
+
+def test_rasters_open_paletted_or_pseudocolour(qgis_report):
+    project, report = qgis_report
+    rasters = report["rasters"]
+    n_slices = len(project.slices)
+    n_belts = project.scheme.n_belts
+    # Per slice: the belt raster, one probability raster per belt, the distal probability.
+    assert len(rasters) == n_slices * (n_belts + 2)
+    classes = [[i, b.label or b.id, b.color.lower()] for i, b in enumerate(project.scheme.belts)]
+    for name, info in rasters.items():
+        assert info["valid"], name
+        assert info["crs"] == "EPSG:32631", name
+        # No probability raster opens as an RGB composite of three belts.
+        assert info["renderer"] != "multibandcolor", name
+        if name.startswith("belt_"):
+            assert info["renderer"] == "paletted", name
+            assert info["classes"] == classes, name
+        else:
+            assert info["renderer"] == "singlebandpseudocolor", name
+            assert info["band"] == 1
+            stops = DISTAL_STOPS if name.startswith("distal_") else PROBABILITY_STOPS
+            assert info["ramp"] == [[float(v), c] for v, c in stops], name
+
+
+def test_geographic_project_opens_in_epsg_4326(qgis_report):
+    _, report = qgis_report
+    crs = report["other_crs"]
+    assert "facies_belts" in crs and any(k.endswith(".tif") for k in crs)
+    assert set(crs.values()) == {"EPSG:4326"}
