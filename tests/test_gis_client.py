@@ -56,9 +56,10 @@ def _require(module: str, package: str) -> None:
     pytest.skip(message)
 
 
-def test_gdal_geopackage_validator_passes(demo_build):
+@pytest.mark.parametrize("build", ["demo_build", "geographic_build"])
+def test_gdal_geopackage_validator_passes(build, request):
     _require("osgeo_utils.samples.validate_gpkg", "python3-gdal")
-    _, _, out = demo_build
+    _, _, out = request.getfixturevalue(build)
     run = subprocess.run(
         [
             str(SYSTEM_PYTHON),

@@ -74,6 +74,9 @@ def test_layer_styles_cover_our_spatial_layers():
         "cores",
         "core_slices",
         "core_contacts",
+        "turnarounds",
+        "gaps",
+        "control_points",
         "facies_belts",
         "shorelines",
         "shoreline_bands",
@@ -94,6 +97,8 @@ def test_time_fields_go_to_the_layers_that_vary_by_slice():
     timed = {k: v.time for k, v in got.items() if v.time is not None}
     assert timed == {
         "core_slices": TimeFields("t"),
+        "turnarounds": TimeFields("t"),
+        "control_points": TimeFields("t"),
         "facies_belts": TimeFields("t"),
         "shorelines": TimeFields("t"),
         "shoreline_bands": TimeFields("t"),
@@ -283,8 +288,12 @@ def test_sld_shift_colours_by_sense():
             r.find("se:LineSymbolizer/se:Stroke", NS)
         )["stroke"]
         for r in _rules(root)
+        if r.find("ogc:Filter", NS) is not None
     }
-    assert got == SENSE_COLORS
+    assert {k: v for k, v in got.items() if k in SENSE_COLORS} == SENSE_COLORS
+    assert set(got) == {*SENSE_COLORS, "uncertain"}
+    # Values in no category (a sense added later, an empty one) are still drawn.
+    assert _rules(root)[-1].find("se:ElseFilter", NS) is not None
 
 
 def test_sld_text_is_escaped():

@@ -92,6 +92,13 @@ _SENSE_LABELS = {
     "regression": "Regression (seaward)",
     "stillstand": "Stillstand",
 }
+# A shift whose P10-P90 range spans zero: drawn, but greyed and dashed.
+_UNCERTAIN = ("uncertain", "Uncertain (range spans zero)", "#b3b3b3")
+_TURNAROUND_KINDS = (
+    ("maximum flooding", "Maximum flooding (suggested)", SENSE_COLORS["transgression"]),
+    ("maximum regressive", "Maximum regressive (suggested)", SENSE_COLORS["regression"]),
+)
+_GAP_COLOR = "#8c8c8c"
 _KINDS = ("fill", "line", "marker")
 _HEX = re.compile(r"^#[0-9a-fA-F]{6}$")
 
@@ -427,18 +434,22 @@ def layer_styles(
     Returns
     -------
     dict of str to LayerStyle
-        For ``cores``, ``core_slices``, ``core_contacts``, ``facies_belts``,
-        ``shorelines``, ``shoreline_bands``, ``transects`` and ``shoreline_shifts``.
+        For ``cores``, ``core_slices``, ``core_contacts``, ``turnarounds``, ``gaps``,
+        ``control_points``, ``facies_belts``, ``shorelines``, ``shoreline_bands``,
+        ``transects`` and ``shoreline_shifts``; a build uses those of the layers it has.
 
     Examples
     --------
     >>> styles = layer_styles([("sand", "Sand", "#d9b56e"), ("mud", "Mud", "#1d4f7c")])
     >>> sorted(styles)[:3]
-    ['core_contacts', 'core_slices', 'cores']
+    ['control_points', 'core_contacts', 'core_slices']
     """
 
     def cats(kind: str, items, **symbol) -> tuple[Category, ...]:
         return tuple(Category(v, label, Symbol(kind, c, **symbol)) for v, label, c in items)
+
+    def _stroke(color: str, width: float) -> dict:
+        return {"stroke_color": color, "stroke_width_mm": width}
 
     senses = [(s, _SENSE_LABELS[s], c) for s, c in SENSE_COLORS.items()]
     marker = {"size_mm": 2.4, "stroke_color": _CORE_STROKE, "stroke_width_mm": 0.2}
@@ -462,6 +473,35 @@ def layer_styles(
                 stroke_color=_CORE_STROKE,
                 stroke_width_mm=0.2,
             ),
+        ),
+        LayerStyle(
+            "turnarounds",
+            "Suggested turnarounds",
+            field="kind",
+            categories=cats(
+                "marker",
+                _TURNAROUND_KINDS,
+                size_mm=2.6,
+                shape="star",
+                stroke_color=_CORE_STROKE,
+                stroke_width_mm=0.15,
+            ),
+            other=Symbol("marker", "#bdbdbd", size_mm=2.6, shape="star"),
+            time=slice_time,
+        ),
+        LayerStyle(
+            "gaps",
+            "Unrecovered depth ranges",
+            symbol=Symbol("marker", _GAP_COLOR, size_mm=2.2, shape="x", stroke_color=_GAP_COLOR),
+        ),
+        LayerStyle(
+            "control_points",
+            "Control points (interpretations)",
+            field="belt",
+            categories=cats(
+                "marker", belts, size_mm=2.4, shape="square", **_stroke(_CORE_STROKE, 0.3)
+            ),
+            time=slice_time,
         ),
         LayerStyle(
             "facies_belts",
@@ -497,7 +537,15 @@ def layer_styles(
             "shoreline_shifts",
             "Shoreline shifts",
             field="sense",
-            categories=cats("line", senses, stroke_width_mm=0.7),
+            categories=cats("line", senses, stroke_width_mm=0.7)
+            + (
+                Category(
+                    _UNCERTAIN[0],
+                    _UNCERTAIN[1],
+                    Symbol("line", _UNCERTAIN[2], stroke_width_mm=0.5, dash_mm=(1.5, 1.0)),
+                ),
+            ),
+            other=Symbol("line", "#d9d9d9", stroke_width_mm=0.4),
             time=pair_time,
         ),
     ]

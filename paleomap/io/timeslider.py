@@ -52,6 +52,8 @@ _FIELDS = {
     "shoreline_bands": (("age", "slider_time"),),
     "shoreline_positions": (("age", "slider_time"),),
     "slice_quality": (("age", "slider_time"),),
+    "turnarounds": (("age", "slider_time"),),
+    "control_points": (("age", "slider_time"),),
     "shoreline_shifts": (("older_age", "slider_start"), ("younger_age", "slider_end")),
     "slice_pairs": (("older_age", "slider_start"), ("younger_age", "slider_end")),
 }
