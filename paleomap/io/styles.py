@@ -16,7 +16,12 @@ Colours besides the belt colours (which come from the facies scheme):
   protanopes keep, and the reading (water blue, sand orange) matches the belt palette;
 - shorelines in the palette's shoreline red, the shoreline band the same red at 30 %
   opacity, transects dark grey dashed, cores white circles with a dark outline, core
-  contacts reddish-purple triangles (``#cc79a7``, Okabe & Ito 2008);
+  contacts reddish-purple triangles (``#cc79a7``, Okabe & Ito 2008); shifts whose P10-P90
+  range spans zero (``uncertain``) pale grey;
+- suggested turnarounds as squares by ``kind`` (:data:`TURNAROUND_COLORS`): maximum
+  flooding blue, maximum regressive orange; gaps (no recovery) grey crosses; control
+  points (the user's pseudo-cores, interpretations rather than observations) bluish-green
+  stars (``#009e73``, Okabe & Ito 2008), so they are never read as cores;
 - belt probabilities on viridis (:data:`PROBABILITY_STOPS`; perceptually uniform and
   readable with common colour-vision deficiencies, van der Walt & Smith 2015), the same
   ramp for every belt so that probabilities compare across files;
@@ -48,6 +53,7 @@ __all__ = [
     "PROBABILITY_STOPS",
     "SENSE_COLORS",
     "SHAPES",
+    "TURNAROUND_COLORS",
     "Category",
     "LayerStyle",
     "PaletteStyle",
@@ -65,8 +71,16 @@ SENSE_COLORS: dict[str, str] = {
     "transgression": "#0072b2",
     "regression": "#e69f00",
     "stillstand": "#8c8c8c",
+    "uncertain": "#d9d9d9",
 }
-"""Colours of shoreline shifts by sense (Okabe & Ito 2008 blue and orange, and a grey)."""
+"""Colours of shoreline shifts by sense (Okabe & Ito 2008 blue and orange, and greys)."""
+
+TURNAROUND_COLORS: dict[str, str] = {
+    "maximum flooding": "#0072b2",
+    "maximum regressive": "#e69f00",
+}
+"""Colours of suggested turnarounds by kind: the transgression blue at a maximum flooding
+surface (the end of a transgression), the regression orange at a maximum regressive one."""
 
 SHAPES = ("circle", "square", "triangle", "star", "cross", "x")
 """Marker shapes every style encoding knows (the SE 1.1.0 well-known marks)."""
@@ -91,14 +105,12 @@ _SENSE_LABELS = {
     "transgression": "Transgression (landward)",
     "regression": "Regression (seaward)",
     "stillstand": "Stillstand",
+    "uncertain": "Uncertain (P10-P90 spans zero)",
 }
-# A shift whose P10-P90 range spans zero: drawn, but greyed and dashed.
-_UNCERTAIN = ("uncertain", "Uncertain (range spans zero)", "#b3b3b3")
-_TURNAROUND_KINDS = (
-    ("maximum flooding", "Maximum flooding (suggested)", SENSE_COLORS["transgression"]),
-    ("maximum regressive", "Maximum regressive (suggested)", SENSE_COLORS["regression"]),
-)
 _GAP_COLOR = "#8c8c8c"
+# Control points are interpretations, not cores: a different mark and colour (Okabe & Ito
+# 2008 bluish green).
+_CONTROL_COLOR = "#009e73"
 _KINDS = ("fill", "line", "marker")
 _HEX = re.compile(r"^#[0-9a-fA-F]{6}$")
 
@@ -374,8 +386,8 @@ def belt_categories(scheme) -> list[tuple[str, str, str]]:
     Examples
     --------
     >>> from paleomap.scheme import builtin_scheme
-    >>> belt_categories(builtin_scheme("siliciclastic"))[0][0]
-    'gravel'
+    >>> belt_categories(builtin_scheme("shoreface_shelf"))[0][0]
+    'alluvial_plain'
     """
     return [(b.id, b.label or b.id, b.color) for b in scheme.belts]
 
@@ -448,10 +460,11 @@ def layer_styles(
     def cats(kind: str, items, **symbol) -> tuple[Category, ...]:
         return tuple(Category(v, label, Symbol(kind, c, **symbol)) for v, label, c in items)
 
-    def _stroke(color: str, width: float) -> dict:
-        return {"stroke_color": color, "stroke_width_mm": width}
+    def _stroke(width: float) -> dict:
+        return {"stroke_color": _CORE_STROKE, "stroke_width_mm": width}
 
     senses = [(s, _SENSE_LABELS[s], c) for s, c in SENSE_COLORS.items()]
+    turns = [(k, f"{k.capitalize()} surface (suggested)", c) for k, c in TURNAROUND_COLORS.items()]
     marker = {"size_mm": 2.4, "stroke_color": _CORE_STROKE, "stroke_width_mm": 0.2}
     styles = [
         LayerStyle("cores", "Cores", symbol=Symbol("marker", "#ffffff", **marker)),
@@ -478,29 +491,19 @@ def layer_styles(
             "turnarounds",
             "Suggested turnarounds",
             field="kind",
-            categories=cats(
-                "marker",
-                _TURNAROUND_KINDS,
-                size_mm=2.6,
-                shape="star",
-                stroke_color=_CORE_STROKE,
-                stroke_width_mm=0.15,
-            ),
-            other=Symbol("marker", "#bdbdbd", size_mm=2.6, shape="star"),
+            categories=cats("marker", turns, size_mm=2.6, shape="square", **_stroke(0.15)),
+            other=Symbol("marker", "#bdbdbd", size_mm=2.6, shape="square"),
             time=slice_time,
         ),
         LayerStyle(
             "gaps",
-            "Unrecovered depth ranges",
-            symbol=Symbol("marker", _GAP_COLOR, size_mm=2.2, shape="x", stroke_color=_GAP_COLOR),
+            "Gaps (no recovery)",
+            symbol=Symbol("marker", _GAP_COLOR, size_mm=2.0, shape="x", stroke_color=_GAP_COLOR),
         ),
         LayerStyle(
             "control_points",
-            "Control points (interpretations)",
-            field="belt",
-            categories=cats(
-                "marker", belts, size_mm=2.4, shape="square", **_stroke(_CORE_STROKE, 0.3)
-            ),
+            "Control points",
+            symbol=Symbol("marker", _CONTROL_COLOR, size_mm=3.0, shape="star", **_stroke(0.2)),
             time=slice_time,
         ),
         LayerStyle(
@@ -537,15 +540,8 @@ def layer_styles(
             "shoreline_shifts",
             "Shoreline shifts",
             field="sense",
-            categories=cats("line", senses, stroke_width_mm=0.7)
-            + (
-                Category(
-                    _UNCERTAIN[0],
-                    _UNCERTAIN[1],
-                    Symbol("line", _UNCERTAIN[2], stroke_width_mm=0.5, dash_mm=(1.5, 1.0)),
-                ),
-            ),
-            other=Symbol("line", "#d9d9d9", stroke_width_mm=0.4),
+            categories=cats("line", senses, stroke_width_mm=0.7),
+            other=Symbol("line", "#bdbdbd", stroke_width_mm=0.4, dash_mm=(1.5, 1.0)),
             time=pair_time,
         ),
     ]
