@@ -78,7 +78,7 @@ from dataclasses import dataclass
 import numpy as np
 import pandas as pd
 from scipy import linalg, sparse, special
-from scipy.spatial import cKDTree
+from scipy.spatial import cKDTree, distance
 
 from ..grid import mean_core_spacing
 from .records import RECORD_COLUMNS
@@ -375,6 +375,7 @@ class SpaceTimeField:
         D1 = np.diff(np.eye(M), axis=0)
         DtD = D1.T @ D1
         w = np.zeros(lat.size)
+        u_acc, th_acc, n_acc = np.zeros(nc), np.zeros(3 * M), 0
         for sweep in range(total):
             # 1. age shifts of every span: the whole span moves with its age model
             z = rng.standard_normal(len(rec))
@@ -422,9 +423,17 @@ class SpaceTimeField:
             for b in range(3):
                 d = D1 @ theta[b * M : (b + 1) * M]
                 q[b] = 1.0 / rng.gamma(1.0 + (M - 1) / 2, 1.0 / (1e-3 + d @ d / 2))
+            # the cores' mean residuals and the tilt, averaged since the last
+            # checkpoint: the hyperparameters follow the chain, not one draw of it
+            u_acc += u
+            th_acc += theta
+            n_acc += 1
             if sweep in checkpoints:
-                ubar = u / np.maximum(counts, 1)
-                hyper = self._hyper(hyper, ubar, counts, theta, M)
+                ubar = u_acc / n_acc / np.maximum(counts, 1)
+                hyper = self._hyper(hyper, ubar, counts, th_acc / n_acc, M)
+                u_acc[:] = 0.0
+                th_acc[:] = 0.0
+                n_acc = 0
                 state = relief(hyper)
                 w = state.draw(u, rng)
                 Rc = state.at_cores(w)
@@ -469,9 +478,10 @@ class SpaceTimeField:
         missing = [c for c in RECORD_COLUMNS if c not in records.columns]
         if missing:
             raise ValueError(f"records lack the columns {missing}")
-        rec = records.loc[records["age_base"] > records["age_top"]].reset_index(drop=True)
+        # a point record (a pick: age_top == age_base) dates its belt exactly
+        rec = records.loc[records["age_base"] >= records["age_top"]].reset_index(drop=True)
         if rec.empty:
-            raise ValueError("no record spans a positive age range")
+            raise ValueError("no record with age_top <= age_base")
         lo, hi = rec["rank_low"].to_numpy(), rec["rank_high"].to_numpy()
         if lo.min() < 0 or hi.max() >= n_belts or np.any(lo > hi):
             raise ValueError(f"record ranks must satisfy 0 <= rank_low <= rank_high < {n_belts}")
@@ -509,8 +519,9 @@ class SpaceTimeField:
     def _knot_correlation(self, lat, hyper):
         F = _frame(hyper["azimuth"], hyper["ratio"]) / hyper["range_m"]
         p = np.column_stack([lat.e, lat.n]) @ F.T
-        d = np.sqrt(np.maximum(((p[:, None, :] - p[None, :, :]) ** 2).sum(-1), 0.0))
-        return _matern32(d) + 1e-6 * np.eye(lat.size)
+        K = _matern32(distance.cdist(p, p))
+        K.flat[:: lat.size + 1] += 1e-6
+        return K
 
     def _relief_factory(self, lat, Bc, counts):
         """A maker of the relief block's sampler for given hyperparameters."""
@@ -559,7 +570,7 @@ class SpaceTimeField:
         def score(ratio, rs, sill):
             if ratio not in geo:
                 p = np.column_stack([e, n]) @ _frame(azimuth, ratio).T
-                geo[ratio] = np.sqrt(((p[:, None, :] - p[None, :, :]) ** 2).sum(-1))
+                geo[ratio] = distance.cdist(p, p)
             K = sill * _matern32(geo[ratio] / (rs * self.spacing_m_)) + np.diag(noise)
             try:
                 L = linalg.cholesky(K, lower=True)
@@ -622,7 +633,7 @@ class SpaceTimeField:
             [(1 - f) * th[:, b * M + i] + f * th[:, b * M + i + 1] for b in range(3)], axis=1
         )
 
-    def predict(self, easting, northing, ages, *, dtype=np.float64, chunk: int = 262_144):
+    def predict(self, easting, northing, ages, *, dtype=np.float64, chunk: int = 131_072):
         """The latent's posterior mean and sd at positions and ages.
 
         Parameters
@@ -634,6 +645,8 @@ class SpaceTimeField:
             their end values).
         dtype : numpy dtype
             Of the returned grids (float32 for large maps).
+        chunk : int
+            Points handled at a time (bounds the memory).
 
         Returns
         -------
@@ -646,40 +659,50 @@ class SpaceTimeField:
         mean = np.empty((A, P), dtype)
         sd = np.empty((A, P), dtype)
         lat = self._lattice
-        r_mean, r_dev = self._r_mean, self._r_dev
-        terms = [self._time_terms(a) for a in ages]
-        S = len(r_dev)
-        # local residual kriging, per age on the cores with a record then
-        duals = []
+        S = len(self._r_dev)
+        # the smooth part's sample covariance: relief knots x knots (once), knots x
+        # time terms and time terms x time terms (per age)
+        cov_rr = self._r_dev.T @ self._r_dev
+        per_age = []
         for a in ages:
-            res = self._core_residuals(a)
-            duals.append(self._local_dual(res))
+            g = self._time_terms(a)  # (S, 3)
+            gm = g.mean(axis=0)
+            gd = (g - gm) / math.sqrt(S)
+            dual, active = self._local_dual(self._core_residuals(a))
+            per_age.append((gm, gd.T @ gd, self._r_dev.T @ gd, dual, active))
         for p0 in range(0, P, chunk):
             sl = slice(p0, min(P, p0 + chunk))
             pe, pn = e[sl], n[sl]
             idx, wts = lat.weights(pe, pn)
-            r_at = (r_mean[idx] * wts).sum(-1)
-            # relief deviations at the points: (points, S)
-            dev = np.einsum("pk,spk->ps", wts, r_dev[:, idx], optimize=True)
-            xs = (pe - self.centre_[0]) / self.scale_
-            ys = (pn - self.centre_[1]) / self.scale_
+            r_at = (self._r_mean[idx] * wts).sum(-1)
+            var_r = np.zeros(pe.size)
+            for j in range(4):
+                for k in range(4):
+                    var_r += wts[:, j] * wts[:, k] * cov_rr[idx[:, j], idx[:, k]]
+            f = np.stack(
+                [
+                    np.ones(pe.size),
+                    (pe - self.centre_[0]) / self.scale_,
+                    (pn - self.centre_[1]) / self.scale_,
+                ],
+                axis=1,
+            )
             cross = self._local_cross(pe, pn)
-            for ai in range(A):
-                g = terms[ai]  # (S, 3)
-                gm = g.mean(axis=0)
-                gd = (g - gm) / math.sqrt(S)
-                smooth_mean = r_at + gm[0] + gm[1] * xs + gm[2] * ys
-                tdev = gd[:, 0][None, :] + xs[:, None] * gd[:, 1] + ys[:, None] * gd[:, 2]
-                var = np.einsum("ps,ps->p", dev + tdev, dev + tdev)
-                dual, active = duals[ai]
+            rows = np.repeat(np.arange(pe.size), np.diff(cross.indptr))
+            for ai, (gm, cov_gg, cov_rg, dual, active) in enumerate(per_age):
+                c = (cov_rg[idx] * wts[:, :, None]).sum(1)  # (points, 3)
+                var = var_r + 2 * (c * f).sum(1) + np.einsum("pi,ij,pj->p", f, cov_gg, f)
                 if dual is None:
                     loc, v_e = 0.0, 1.0
                 else:
                     loc = cross @ dual
-                    near = cross[:, active].max(axis=1).toarray().ravel()
+                    on = np.zeros(len(self.core_ids_), bool)
+                    on[active] = True
+                    near = np.zeros(pe.size)
+                    np.maximum.at(near, rows, np.where(on[cross.indices], cross.data, 0.0))
                     v_e = 1.0 - near**2
-                mean[ai, sl] = smooth_mean + loc
-                sd[ai, sl] = np.sqrt(var + v_e)
+                mean[ai, sl] = r_at + f @ gm + loc
+                sd[ai, sl] = np.sqrt(np.maximum(var, 0.0) + v_e)
         return SpaceTimePrediction(mean, sd, self.thresholds_.copy())
 
     def _local_cross(self, pe, pn):
@@ -739,3 +762,78 @@ class SpaceTimeField:
             loc = 0.0 if dual is None else cross @ dual
             out[:, ai] = r + g[:, :1] + g[:, 1:2] * xs + g[:, 2:3] * ys + loc
         return out
+
+    def transect_draws(self, line, ages, boundary: int, step_m: float, draws: int | None = None):
+        """Joint draws of a boundary's position along a transect at several ages.
+
+        The position is measured as :func:`paleomap.migration.transect_position` measures
+        it on a map (the length of the line on the proximal side of the boundary), in
+        every draw of the latent's smooth part with that draw's own threshold, so the
+        positions of one draw at two ages make one possible shift.
+
+        Parameters
+        ----------
+        line : shapely.LineString
+            Landward to basinward.
+        ages : array_like
+        boundary : int
+            The boundary ``b`` (between ranks ``b - 1`` and ``b``).
+        step_m : float
+            Sampling step along the line.
+        draws : int or None
+            Draws to use (spread over the kept samples); all by default.
+
+        Returns
+        -------
+        numpy.ndarray
+            (draws, ages) positions in metres along the line; NaN where the line does
+            not cross the boundary in that draw.
+        """
+        import shapely
+
+        length = line.length
+        k = max(2, int(np.ceil(length / step_m)) + 1)
+        s = np.linspace(0.0, length, k)
+        xy = shapely.get_coordinates(shapely.line_interpolate_point(line, s))
+        S = len(self.relief_samples_)
+        pick = np.arange(S) if draws is None else np.linspace(0, S - 1, draws).astype(int)
+        lat = self.sample_latent(xy[:, 0], xy[:, 1], ages, draws)
+        t = self.threshold_samples_[pick, boundary - 1]
+        proximal = lat < t[:, None, None]
+        w = np.full(k, length / (k - 1))
+        w[0] = w[-1] = w[0] / 2
+        pos = proximal @ w
+        crossing = np.any(np.diff(proximal.astype(np.int8), axis=-1) != 0, axis=-1)
+        return np.where(crossing, pos, np.nan)
+
+
+def records_table(records, gaps=None) -> pd.DataFrame:
+    """A :data:`RECORD_COLUMNS` table from :class:`paleomap.records.Records` (its
+    optional ``age_sd_top``/``age_sd_base`` and censored ``gaps`` included).
+
+    Examples
+    --------
+    >>> from paleomap.records import Records  # doctest: +SKIP
+    """
+    n = len(records)
+    zeros = np.zeros(n)
+    sd_top = getattr(records, "age_sd_top", None)
+    sd_base = getattr(records, "age_sd_base", None)
+    table = pd.DataFrame(
+        dict(
+            core_id=np.asarray(records.core_id, dtype=object),
+            easting=np.asarray(records.easting, dtype=float),
+            northing=np.asarray(records.northing, dtype=float),
+            age_top=np.asarray(records.age_top, dtype=float),
+            age_base=np.asarray(records.age_base, dtype=float),
+            age_sd_top=zeros if sd_top is None else np.asarray(sd_top, dtype=float),
+            age_sd_base=zeros if sd_base is None else np.asarray(sd_base, dtype=float),
+            rank_low=np.asarray(records.rank, dtype=np.int64),
+            rank_high=np.asarray(records.rank, dtype=np.int64),
+            censored=np.zeros(n, dtype=bool),
+        )
+    )
+    gaps = getattr(records, "gaps", None) if gaps is None else gaps
+    if gaps is not None and len(gaps):
+        table = pd.concat([table, pd.DataFrame(gaps)[list(RECORD_COLUMNS)]], ignore_index=True)
+    return table
