@@ -36,16 +36,19 @@ def demo_project_path() -> Path:
     help="Build folder to write.",
 )
 @click.option(
-    "--keep",
+    "--overwrite",
     is_flag=True,
-    help="Refuse to replace an earlier demo build (by default it is replaced).",
+    help="Replace an earlier build in OUT (as for build: only a folder paleomap wrote).",
 )
 @click.pass_context
-def command(ctx: click.Context, out: Path, keep: bool) -> None:
+def command(ctx: click.Context, out: Path, overwrite: bool) -> None:
     """Build the bundled demo region (an invented shelf) into OUT.
+
+    Follows the rules of ``build``: an existing OUT is refused unless --overwrite, and
+    --overwrite replaces only a folder that holds nothing but an earlier build.
 
     \b
     Example:
       paleomap demo --out demo_build
     """
-    run_build(demo_project_path(), out, overwrite=not keep, quiet=ctx.obj.get("quiet", False))
+    run_build(demo_project_path(), out, overwrite=overwrite, quiet=ctx.obj.get("quiet", False))
