@@ -96,8 +96,8 @@ log = logging.getLogger(__name__)
 _RANGES = (0.5, 0.75, 1.0, 1.5, 2.0, 3.0, 4.5, 7.0)  # relief range candidates, core spacings
 # anisotropy candidates: strike-to-dip range ratio (below 1: longer along dip)
 _RATIOS = (0.12, 0.25, 0.4, 0.6, 1.0, 1.5, 2.5, 4.0, 8.0)
-_SILLS = np.geomspace(0.02, 4.0, 14)  # relief sill candidates, times the residuals' variance
-_HYPER_CORES = 400  # cores used by the hyperparameter search (a spread subset above it)
+_SILLS = np.geomspace(0.02, 4.0, 11)  # relief sill candidates, times the residuals' variance
+_HYPER_CORES = 250  # cores used by the hyperparameter search (a spread subset above it)
 
 
 @dataclass(frozen=True)
@@ -139,7 +139,7 @@ class SpaceTimeSettings:
     age_steps: int = 48
     time_knots: int = 25
     knots_per_spacing: float = 2.0
-    max_knots: int = 2500
+    max_knots: int = 1600
     anisotropy: float | None = None
     range_spacings: float | None = None
     local_range: float = 1.0
@@ -533,10 +533,23 @@ class SpaceTimeField:
                 self.L = linalg.cholesky(K, lower=True)
                 self.s = math.sqrt(hyper["sill"])
                 self.G = np.asarray(Bc @ self.L) * self.s  # cores x knots
-                A = np.eye(lat.size) + self.G.T @ (counts[:, None] * self.G)
-                self.LA = linalg.cholesky(A, lower=True)
+                self.core_space = self.G.shape[0] < self.G.shape[1]
+                if self.core_space:
+                    # fewer cores than knots: the Gaussian update in core space
+                    # (perturbation form), one n x n factor instead of m x m
+                    S = self.G @ self.G.T
+                    S.flat[:: S.shape[0] + 1] += 1.0 / counts
+                    self.LS = linalg.cholesky(S, lower=True)
+                else:
+                    A = np.eye(lat.size) + self.G.T @ (counts[:, None] * self.G)
+                    self.LA = linalg.cholesky(A, lower=True)
 
             def draw(self, u, rng):
+                if self.core_space:
+                    w0 = rng.standard_normal(self.G.shape[1])
+                    e0 = rng.standard_normal(counts.size) / np.sqrt(counts)
+                    r = u / counts - self.G @ w0 - e0
+                    return w0 + self.G.T @ linalg.cho_solve((self.LS, True), r)
                 m = linalg.cho_solve((self.LA, True), self.G.T @ u)
                 z = rng.standard_normal(m.size)
                 return m + linalg.solve_triangular(self.LA.T, z, lower=False)
