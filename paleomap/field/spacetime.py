@@ -701,7 +701,8 @@ class SpaceTimeField:
                 axis=1,
             )
             cross = self._local_cross(pe, pn)
-            rows = np.repeat(np.arange(pe.size), np.diff(cross.indptr))
+            starts = cross.indptr[:-1]
+            filled = np.diff(cross.indptr) > 0
             for ai, (gm, cov_gg, cov_rg, dual, active) in enumerate(per_age):
                 c = (cov_rg[idx] * wts[:, :, None]).sum(1)  # (points, 3)
                 var = var_r + 2 * (c * f).sum(1) + np.einsum("pi,ij,pj->p", f, cov_gg, f)
@@ -712,7 +713,9 @@ class SpaceTimeField:
                     on = np.zeros(len(self.core_ids_), bool)
                     on[active] = True
                     near = np.zeros(pe.size)
-                    np.maximum.at(near, rows, np.where(on[cross.indices], cross.data, 0.0))
+                    if cross.nnz:
+                        vals = np.where(on[cross.indices], cross.data, 0.0)
+                        near[filled] = np.maximum.reduceat(vals, starts[filled])
                     v_e = 1.0 - near**2
                 mean[ai, sl] = r_at + f @ gm + loc
                 sd[ai, sl] = np.sqrt(np.maximum(var, 0.0) + v_e)
