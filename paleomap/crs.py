@@ -22,7 +22,7 @@ import numpy as np
 import pyproj
 from pyproj.crs import CoordinateOperation, ProjectedCRS
 
-__all__ = ["crs_problem", "working_crs_for"]
+__all__ = ["crs_problem", "delivery_crs_for", "working_crs_for"]
 
 
 def working_crs_for(
@@ -65,6 +65,31 @@ def working_crs_for(
     )
 
 
+def delivery_crs_for(crs: pyproj.CRS, output: pyproj.CRS | None = None) -> pyproj.CRS:
+    """The CRS a project's layers and rasters are delivered in.
+
+    ``output`` (``[output] crs``) if given, else the project CRS; its horizontal part,
+    and, where pyproj identifies it with a registered CRS (confidence 90 % or more), that
+    registered CRS, so the deliverables carry an authority code (e.g. EPSG) that every GIS
+    matches with the user's other data. A geographic project is mapped in a local working
+    CRS (:func:`working_crs_for`) but delivered in its own geographic CRS.
+
+    Examples
+    --------
+    >>> delivery_crs_for(pyproj.CRS("EPSG:4326")).to_epsg()
+    4326
+    >>> delivery_crs_for(pyproj.CRS("+proj=utm +zone=31 +datum=WGS84 +units=m")).to_epsg()
+    32631
+    >>> delivery_crs_for(pyproj.CRS("EPSG:4326"), pyproj.CRS("EPSG:3035")).to_epsg()
+    3035
+    """
+    chosen = _horizontal(output if output is not None else crs)
+    authority = chosen.to_authority(min_confidence=90)
+    if authority is None:
+        return chosen
+    return pyproj.CRS.from_authority(*authority)
+
+
 def _aeqd_conversion(lat0: float, lon0: float) -> dict:
     def param(name, code, value, unit):
         return {
@@ -95,17 +120,8 @@ def _horizontal(crs: pyproj.CRS) -> pyproj.CRS:
     return crs
 
 
-def crs_problem(crs: pyproj.CRS) -> tuple[str, str] | None:
-    """(message, hint) when paleomap cannot work in ``crs``, else None.
-
-    paleomap measures in metres: it works in a projected CRS in metres, or in a
-    geographic CRS that it projects locally (:func:`working_crs_for`).
-
-    >>> crs_problem(pyproj.CRS("EPSG:32631")) is None
-    True
-    >>> crs_problem(pyproj.CRS("EPSG:2272"))[0]
-    'is projected in US survey foot, not metres'
-    """
+def crs_problem(crs: pyproj.CRS, projected_in_metres: bool = True) -> tuple[str, str] | None:
+    """(message, hint) when paleomap cannot work in ``crs``, else None."""
     horizontal = _horizontal(crs)
     if horizontal.is_geographic:
         return None
@@ -114,6 +130,10 @@ def crs_problem(crs: pyproj.CRS) -> tuple[str, str] | None:
             f"is a {crs.type_name.removesuffix(' CRS')} CRS, neither geographic nor projected",
             "give a projected CRS in metres or a geographic CRS",
         )
+    if not projected_in_metres:
+        # Deliverables may be in any projected unit: lengths and areas are measured in
+        # the working CRS before the layers are transformed.
+        return None
     units = {a.unit_name for a in horizontal.axis_info}
     factors = {a.unit_conversion_factor for a in horizontal.axis_info}
     if factors != {1.0}:

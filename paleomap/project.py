@@ -13,6 +13,7 @@ from pathlib import Path
 import pyproj
 
 from .cores import Core
+from .crs import delivery_crs_for
 from .errors import Problem
 from .scheme import Scheme
 
@@ -208,6 +209,14 @@ class Project:
     checksums: dict = field(default_factory=dict)
     """sha256 of every input file, keyed by its path relative to the project file."""
     warnings: tuple[Problem, ...] = ()
+    output_crs: pyproj.CRS | None = None
+    """CRS the layers and rasters are delivered in (see :func:`delivery_crs_for`); None
+    for the default, the project CRS."""
+
+    @property
+    def delivery_crs(self) -> pyproj.CRS:
+        """The CRS of the deliverables: ``output_crs``, else the project CRS."""
+        return self.output_crs if self.output_crs is not None else delivery_crs_for(self.crs)
 
     @property
     def root(self) -> Path:

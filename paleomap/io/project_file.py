@@ -59,6 +59,7 @@ MAPPING_MODELS = ("auto", "exponential", "spherical", "gaussian", "matern32")
 
 _TABLES = {
     "project": ("name", "crs"),
+    "output": ("crs",),
     "inputs": (*INPUT_KEYS, "control_points"),
     "time": ("age_unit",),
     "surfaces": ("name", "age", "age_sd", "erosional"),
@@ -143,6 +144,7 @@ class ProjectConfig:
     lines: dict = field(default_factory=dict)
     belts: tuple[Belt, ...] | None = None
     sources: InputSources = field(default_factory=InputSources)
+    output_crs: pyproj.CRS | None = None
 
 
 def parse_config(
@@ -373,6 +375,9 @@ class _ConfigReader:
         project = self.table("project") or {}
         out["name"] = self.text(project, ("project",), "name") if "project" in self.data else None
         out["crs"] = self.read_crs(project) if "project" in self.data else None
+        output = self.table("output") or {}
+        if "crs" in output:
+            out["output_crs"] = self.read_crs(output, ("output",), projected_in_metres=False)
 
         inputs = self.table("inputs") or {}
         lines = {}
@@ -410,17 +415,19 @@ class _ConfigReader:
         out["reading"] = self.read_reading()
         return ProjectConfig(self.file, lines=lines, **out)
 
-    def read_crs(self, project: dict) -> pyproj.CRS | None:
+    def read_crs(
+        self, project: dict, where: tuple = ("project",), projected_in_metres: bool = True
+    ) -> pyproj.CRS | None:
         value = project.get("crs")
         if isinstance(value, int) and not isinstance(value, bool) and value > 0:
             project = {**project, "crs": f"EPSG:{value}"}  # a bare EPSG code
-        text = self.text(project, ("project",), "crs")
+        text = self.text(project, where, "crs")
         if text is None:
             if "crs" not in project:
                 # Replace the generic message with one that says why.
                 self.log.errors.pop()
                 self.err(
-                    ("project", "crs"),
+                    (*where, "crs"),
                     None,
                     "is missing: paleomap never assumes a CRS",
                     'give any CRS pyproj reads, e.g. crs = "EPSG:32631" or "EPSG:4326"',
@@ -430,15 +437,15 @@ class _ConfigReader:
             crs = pyproj.CRS.from_user_input(text)
         except pyproj.exceptions.CRSError:
             self.err(
-                ("project", "crs"),
+                (*where, "crs"),
                 text,
                 "is not a CRS pyproj knows",
                 'give an EPSG code such as "EPSG:32631", a WKT or a PROJ string',
             )
             return None
-        problem = crs_problem(crs)
+        problem = crs_problem(crs, projected_in_metres)
         if problem is not None:
-            self.err(("project", "crs"), text, *problem)
+            self.err((*where, "crs"), text, *problem)
             return None
         return crs
 

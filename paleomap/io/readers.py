@@ -34,7 +34,7 @@ import pandas as pd
 import pyproj
 
 from ..agemodel import build_age_models, sample_slices
-from ..crs import working_crs_for
+from ..crs import delivery_crs_for, working_crs_for
 from ..errors import ProblemLog
 from ..project import Project
 from ..scheme import name_key, suggest_names
@@ -245,6 +245,7 @@ def load_project(path: str | os.PathLike) -> Project:
         transect_lines=transect_lines,
         config_text=text,
         checksums=checksums,
+        output_crs=delivery_crs_for(cfg.crs, cfg.output_crs),
     )
     _check_records(project, cfg, log)
     log.emit_warnings(stacklevel=3)
