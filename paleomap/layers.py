@@ -17,6 +17,8 @@ import numpy as np
 import pandas as pd
 import shapely
 
+from .io.filenames import safe_name
+
 if TYPE_CHECKING:
     from .pipeline import BuildResult
 
@@ -155,7 +157,9 @@ def build_layers(result: BuildResult) -> dict[str, pd.DataFrame]:
                 geometry=_multi(m.band, shapely.MultiPolygon),
             )
         )
-        quality_rows.append(dict(slice=m.slice.name, age=m.slice.age, **m.quality))
+        # The stem of the slice's rasters and figure: a slice name may not be a file name.
+        stem = safe_name(m.slice.name)
+        quality_rows.append(dict(slice=m.slice.name, age=m.slice.age, file_stem=stem, **m.quality))
     # A slice with no boundary in the mapped area keeps its row (with an empty line),
     # so the GIS and the report show that it was looked for and not found.
     facies_belts = _gdf(belt_rows, ["slice", "age", "belt", "rank", "marine", "area_km2"], crs)

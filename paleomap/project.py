@@ -533,7 +533,7 @@ class _ConfigReader:
         return value
 
     # -- typed values ------------------------------------------------------------------
-    def text(self, table, path, key, required=True, choices=None) -> str | None:
+    def text(self, table, path, key, required=True, choices=None, name=False) -> str | None:
         if key not in table:
             if required:
                 hint = f"choose one of {list(choices)}" if choices else None
@@ -543,10 +543,26 @@ class _ConfigReader:
         if not isinstance(value, str) or not value.strip():
             self.err((*path, key), value, "must be a non-empty text in quotes")
             return None
+        if name and not self.printable((*path, key), value):
+            return None
         if choices is not None and value not in choices:
             self.err((*path, key), value, "is not allowed", f"choose one of {list(choices)}")
             return None
         return value.strip()
+
+    def printable(self, path, value: str) -> bool:
+        """Names and labels reach figures, XML styles, file names and the report: a
+        control character (a bell, an escape, a line break) is refused here."""
+        bad = next((c for c in value if not c.isprintable()), None)
+        if bad is None:
+            return True
+        self.err(
+            path,
+            value,
+            f"contains a control character (U+{ord(bad):04X})",
+            "names and labels are one line of visible characters",
+        )
+        return False
 
     def number(
         self,
@@ -622,7 +638,8 @@ class _ConfigReader:
 
         out: dict = {}
         project = self.table("project") or {}
-        out["name"] = self.text(project, ("project",), "name") if "project" in self.data else None
+        has_project = "project" in self.data
+        out["name"] = self.text(project, ("project",), "name", name=True) if has_project else None
         out["crs"] = self.read_crs(project) if "project" in self.data else None
 
         inputs = self.table("inputs") or {}
@@ -708,7 +725,7 @@ class _ConfigReader:
         for i, table in enumerate(raw):
             path = ("surfaces", i)
             self.check_keys(table, path, _TABLES["surfaces"], "[[surfaces]]")
-            name = self.text(table, path, "name")
+            name = self.text(table, path, "name", name=True)
             age = self.number(table, path, "age", required=True, minimum=0, min_open=True)
             if "age" in table and age is None and isinstance(table["age"], (int, float)):
                 # Replace the range message with the contract's wording.
@@ -798,7 +815,7 @@ class _ConfigReader:
                 'write colors = { gravel = "#6b4423" }',
             )
             return None
-        name = self.text(table, path, "name", required=False)
+        name = self.text(table, path, "name", required=False, name=True)
 
         if has_builtin:
             builtin = self.text(table, path, "builtin", choices=BUILTIN_SCHEMES)
@@ -865,7 +882,7 @@ class _ConfigReader:
         for i, table in enumerate(raw):
             bpath = (*path, i)
             self.check_keys(table, bpath, _BELT_KEYS, "a belt")
-            belt_id = self.text(table, bpath, "id")
+            belt_id = self.text(table, bpath, "id", name=True)
             if "marine" not in table:
                 self.err(
                     (*bpath, "marine"), None, "is missing", "write marine = true or marine = false"
@@ -888,7 +905,7 @@ class _ConfigReader:
             if not isinstance(color, str) or not _HEX.match(color):
                 self.err((*bpath, "color"), color, "is not a colour", 'write "#rrggbb"')
                 color = None
-            label = self.text(table, bpath, "label", required=False)
+            label = self.text(table, bpath, "label", required=False, name=True)
             if belt_id is not None and label is None:
                 label = belt_id.replace("_", " ")
             if belt_id is None or marine is None or aliases is None or color is None:

@@ -151,7 +151,9 @@ def _png_bytes(spec, folder: Path | None) -> bytes:
             return path.read_bytes()
     fig = spec.draw()
     buf = io.BytesIO()
-    from .figures.canvas import REPORT_DPI
+    from .figures.canvas import REPORT_DPI, plain_texts
+
+    plain_texts(fig)  # as save_figure does: user names are never mathtext
 
     fig.savefig(buf, format="png", dpi=REPORT_DPI, metadata={"Software": "paleomap"})
     return buf.getvalue()

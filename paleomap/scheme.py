@@ -34,7 +34,7 @@ from .figures.palette import belt_colors
 
 __all__ = ["BUILTIN_SCHEMES", "Belt", "Scheme", "builtin_scheme", "custom_scheme", "phi"]
 
-_HEX = re.compile(r"^#[0-9a-fA-F]{6}$")
+_HEX = re.compile(r"^#[0-9a-fA-F]{6}\Z")  # \Z: "$" would let a final newline through
 
 
 @dataclass(frozen=True)

@@ -385,7 +385,7 @@ def test_draw_all_writes_every_figure(request, name, tmp_path):
         assert f"slice_{safe_name(m.slice.name)}.png" in names
         assert f"slice_{safe_name(m.slice.name)}.pdf" in names
     assert "shoreline_migration.png" in names and "shoreline_positions.png" in names
-    tr = chart_transect(result).transect
+    tr = safe_name(chart_transect(result).transect)
     assert f"chronostratigraphic_{tr}.png" in names and f"core_panel_{tr}.png" in names
     for p in paths:
         head = p.read_bytes()[:8]

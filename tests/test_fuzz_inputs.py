@@ -461,6 +461,7 @@ _CATALOGUED = (
     "io/sheets.py",
     "io/assemble.py",
     "io/atomic.py",
+    "io/inputfiles.py",
     "cli/demo.py",
 )
 # Call name -> position of the message argument.
@@ -472,6 +473,7 @@ _MESSAGE_ARG = {
     "OutputExistsError": 0,
     "BuildWriteError": 0,
     "BuildBusyError": 0,
+    "FileProblem": 0,
 }
 
 

@@ -14,10 +14,16 @@ __all__ = ["command", "run_build"]
 
 
 def run_build(
-    project_path: Path, out: Path, *, overwrite: bool, figures: bool = True, quiet: bool = False
+    project_path: Path,
+    out: Path,
+    *,
+    overwrite: bool,
+    figures: bool = True,
+    quiet: bool = False,
+    allow_outside_inputs: bool = False,
 ) -> None:
     """Build ``project_path`` into ``out`` and print what was made (shared with ``demo``)."""
-    project = load_project(project_path)
+    project = load_project(project_path, allow_outside_inputs=allow_outside_inputs)
     result = build(project, out, overwrite=overwrite, figures=figures, report=figures)
     if quiet:
         return
@@ -40,9 +46,19 @@ def run_build(
 )
 @click.option("--overwrite", is_flag=True, help="Replace an existing build folder.")
 @click.option("--no-figures", is_flag=True, help="Skip the figures and the report (faster).")
+@click.option(
+    "--allow-outside-inputs",
+    is_flag=True,
+    help="Allow the project file to name files outside its own folder.",
+)
 @click.pass_context
 def command(
-    ctx: click.Context, project: Path, out: Path, overwrite: bool, no_figures: bool
+    ctx: click.Context,
+    project: Path,
+    out: Path,
+    overwrite: bool,
+    no_figures: bool,
+    allow_outside_inputs: bool,
 ) -> None:
     """Map every time slice of PROJECT and write the build folder.
 
@@ -55,5 +71,10 @@ def command(
       paleomap build basin/project.toml --out basin/build
     """
     run_build(
-        project, out, overwrite=overwrite, figures=not no_figures, quiet=ctx.obj.get("quiet", False)
+        project,
+        out,
+        overwrite=overwrite,
+        figures=not no_figures,
+        quiet=ctx.obj.get("quiet", False),
+        allow_outside_inputs=allow_outside_inputs,
     )

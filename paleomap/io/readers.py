@@ -34,9 +34,10 @@ import pyproj
 
 from ..agemodel import build_age_models, sample_slices
 from ..cores import build_cores, parse_number
-from ..errors import ProblemLog
+from ..errors import InputError, ProblemLog
 from ..project import Project, ProjectConfig, TomlLocator, parse_config, working_crs_for
 from .assemble import read_tables
+from .inputfiles import MAX_INPUT_BYTES, input_file_problem, read_input_bytes
 from .sources import header_names
 
 __all__ = ["CORE_COLUMNS", "INTERVAL_COLUMNS", "PICK_COLUMNS", "load_project", "read_csv_table"]
@@ -53,13 +54,27 @@ PICK_COLUMNS = (("core_id", "surface", "depth"), ())
 _CSV_SUFFIXES = {".csv", ".txt"}
 
 
-def load_project(path: str | os.PathLike) -> Project:
+def load_project(
+    path: str | os.PathLike,
+    *,
+    allow_outside_inputs: bool = False,
+    max_input_bytes: int = MAX_INPUT_BYTES,
+) -> Project:
     """Read and validate a project file and every file it names.
+
+    Every file goes through :mod:`paleomap.io.inputfiles` first: only regular files
+    (a FIFO or a device is refused at once), at most ``max_input_bytes`` each, and only
+    inside the project file's folder unless ``allow_outside_inputs``.
 
     Parameters
     ----------
     path : str or path-like
         The project's TOML file. Paths inside it are relative to it.
+    allow_outside_inputs : bool
+        Allow the project file to name files outside its own folder (the CLI's
+        ``--allow-outside-inputs``).
+    max_input_bytes : int
+        Size limit of each input file.
 
     Returns
     -------
@@ -128,6 +143,12 @@ def load_project(path: str | os.PathLike) -> Project:
                 "names a folder, not a file",
                 "give the path of the file itself, relative to the project file",
             )
+            return None
+        problem = input_file_problem(
+            target, root=root, allow_outside=allow_outside_inputs, max_bytes=max_input_bytes
+        )
+        if problem is not None:
+            log.error(shown, cfg.lines.get(key), key, value, problem.message, problem.hint)
             return None
         return target
 
@@ -292,14 +313,23 @@ def read_csv_table(
 
 
 def _read_bytes(path: Path, shown: str, key_line, key, log: ProblemLog) -> bytes | None:
+    # Where a file may lie was checked where its path was read (``source``); here only
+    # what it is: a regular file within the size limit, read without blocking.
     try:
-        return path.read_bytes()
-    except FileNotFoundError:
-        log.error(shown, key_line, key, None, "file not found", f"looked for {path}")
-    except IsADirectoryError:
-        log.error(shown, key_line, key, None, "is a folder, not a file")
-    except OSError as exc:
-        log.error(shown, key_line, key, None, f"cannot be read: {exc.strerror or exc}")
+        if not path.exists():
+            log.error(shown, key_line, key, None, "file not found", f"looked for {path}")
+            return None
+        if path.is_dir():
+            log.error(shown, key_line, key, None, "is a folder, not a file")
+            return None
+    except (OSError, ValueError) as exc:
+        log.error(shown, key_line, key, None, f"cannot be read: {exc}")
+        return None
+    try:
+        return read_input_bytes(path, shown=shown)
+    except InputError as exc:
+        for p in exc.problems:
+            log.error(shown, key_line, key, None, p.message, p.hint)
     return None
 
 

@@ -7,13 +7,14 @@ nothing here decides where a build ends up.
 from __future__ import annotations
 
 import logging
-import re
 from pathlib import Path
 from typing import TYPE_CHECKING
 
 import numpy as np
 
 from .atomic import atomic_write_text
+from .csvcells import csv_text
+from .filenames import safe_name
 from .geopackage import write_layers
 from .geotiff import write_class_raster, write_float_raster
 from .styles import belt_categories, layer_styles
@@ -26,16 +27,6 @@ __all__ = ["GPKG_NAME", "raster_names", "safe_name", "write_deliverables"]
 log = logging.getLogger(__name__)
 
 GPKG_NAME = "paleomap.gpkg"
-
-
-def safe_name(name: str) -> str:
-    """A slice name made safe for a file name.
-
-    >>> safe_name("MFS 2 / upper")
-    'MFS_2_upper'
-    """
-    s = re.sub(r"[^A-Za-z0-9._-]+", "_", str(name)).strip("_")
-    return s or "slice"
 
 
 def raster_names(slice_name: str) -> dict[str, str]:
@@ -70,7 +61,7 @@ def write_deliverables(
     )
     _write_rasters(result, folder / "rasters")
     shifts = layers["shoreline_shifts"].drop(columns="geometry")
-    atomic_write_text(folder / "rates.csv", shifts.to_csv(index=False, float_format="%.6g"))
+    atomic_write_text(folder / "rates.csv", csv_text(shifts, float_format="%.6g"))
     if figures:
         from ..figures.all import draw_all
 
