@@ -1006,17 +1006,21 @@ class _ConfigReader:
         d = MappingSettings()
         values = {
             "model": self.text(table, p, "model", required=False, choices=MAPPING_MODELS),
-            "range_m": self.number(table, p, "range_m", minimum=0, min_open=True),
+            "range_m": self.number(table, p, "range_m", minimum=0, maximum=1e8, min_open=True),
             "anisotropy": self.number(table, p, "anisotropy", minimum=0, maximum=1, min_open=True),
             "azimuth_deg": self.number(
                 table, p, "azimuth_deg", minimum=0, maximum=360, max_open=True
             ),
             "nugget": self.number(table, p, "nugget", minimum=0, maximum=1, max_open=True),
-            "samples": self.number(table, p, "samples", minimum=1, integer=True),
-            "burn_in": self.number(table, p, "burn_in", minimum=0, integer=True),
-            "seed": self.number(table, p, "seed", minimum=0, integer=True),
+            # Upper bounds: far above any useful value, low enough that a typo (1e9
+            # samples) is an error at once rather than a run that never ends.
+            "samples": self.number(table, p, "samples", minimum=1, maximum=10_000, integer=True),
+            "burn_in": self.number(table, p, "burn_in", minimum=0, maximum=10_000, integer=True),
+            "seed": self.number(table, p, "seed", minimum=0, maximum=2**63 - 1, integer=True),
             "deterministic": self.boolean(table, p, "deterministic"),
-            "neighbours": self.number(table, p, "neighbours", minimum=3, integer=True),
+            "neighbours": self.number(
+                table, p, "neighbours", minimum=3, maximum=1000, integer=True
+            ),
             "joint": self.boolean(table, p, "joint"),
         }
         return replace(d, **{k: v for k, v in values.items() if v is not None})
@@ -1031,9 +1035,11 @@ class _ConfigReader:
         values = {
             "transects": Path(transects) if transects else None,
             "transect_spacing_m": self.number(
-                table, p, "transect_spacing_m", minimum=0, min_open=True
+                table, p, "transect_spacing_m", minimum=0, maximum=1e8, min_open=True
             ),
-            "stillstand_m_per_kyr": self.number(table, p, "stillstand_m_per_kyr", minimum=0),
+            "stillstand_m_per_kyr": self.number(
+                table, p, "stillstand_m_per_kyr", minimum=0, maximum=1e6
+            ),
         }
         return replace(MigrationSettings(), **{k: v for k, v in values.items() if v is not None})
 

@@ -296,3 +296,86 @@ def _is_number(text: str) -> bool:
     except ValueError:
         return False
     return True
+
+
+# ------------------------------------------------------------------ numbers and geometry
+
+
+@pytest.mark.parametrize(
+    ("key", "value", "allowed"),
+    [
+        ("mapping.samples", 1_000_000_000, "[1, 10000]"),
+        ("mapping.burn_in", 10**7, "[0, 10000]"),
+        ("mapping.neighbours", 10**6, "[3, 1000]"),
+        ("mapping.range_m", 1e300, "(0, 1e+08]"),
+        ("migration.transect_spacing_m", 1e300, "(0, 1e+08]"),
+        ("grid.cell_size", 0.0, "> 0"),
+    ],
+)
+def test_every_numeric_setting_has_a_range_checked_by_check(tmp_path, key, value, allowed):
+    project = write_project(tmp_path, keys={key: value})
+    result = _check(project)
+    assert result.exit_code == 2, result.output
+    assert f"column {key!r}: is out of range" in result.output
+    assert f"Allowed: {allowed}" in result.output
+
+
+@pytest.mark.parametrize(
+    ("keys", "message"),
+    [
+        ({"grid.cell_size": 30000.0}, "fewer than 3 a side"),
+        ({"migration.transect_spacing_m": 1e-300}, "transects across the"),
+    ],
+    ids=["cell-larger-than-area", "tiny-transect-spacing"],
+)
+def test_check_and_build_agree_on_degenerate_settings(tmp_path, keys, message):
+    project = write_project(tmp_path, keys=keys)
+    checked = _check(project)
+    assert checked.exit_code == 2 and message in checked.output
+    built = CliRunner().invoke(
+        main, ["-q", "build", str(project), "--out", str(tmp_path / "b"), "--no-figures"]
+    )
+    assert built.exit_code == 2 and message in built.stderr
+    assert "Traceback" not in built.stderr
+    assert not (tmp_path / "b").exists()
+
+
+@pytest.mark.slow
+def test_the_largest_cell_check_allows_is_mapped(tmp_path):
+    project = write_project(tmp_path, keys={"grid.cell_size": 2333.0})
+    assert _check(project).exit_code == 0
+    built = CliRunner().invoke(
+        main, ["-q", "build", str(project), "--out", str(tmp_path / "b"), "--no-figures"]
+    )
+    assert built.exit_code == 0, built.output + built.stderr
+
+
+@pytest.mark.slow
+def test_collinear_cores_on_a_diagonal_are_mapped(tmp_path):
+    cores = "core_id,x,y\nC1,500000,4000000\nC2,505000,4005000\nC3,502000,4002000\n"
+    cores += "C4,507000,4007000\n"
+    project = write_project(tmp_path, cores=cores)
+    built = CliRunner().invoke(
+        main, ["-q", "build", str(project), "--out", str(tmp_path / "b"), "--no-figures"]
+    )
+    assert built.exit_code == 0, built.output + built.stderr
+    assert (tmp_path / "b" / "paleomap.gpkg").is_file()
+
+
+def test_tiny_ages_are_mapped_or_refused_never_a_traceback(tmp_path):
+    keys = {"surfaces[1].age": 1e-300, "surfaces[2].age": 2e-300, "surfaces[3].age": 3e-300}
+    project = write_project(tmp_path, keys={**keys, "surfaces[1].age_sd": 0.0})
+    checked = _check(project)
+    assert checked.exit_code in (0, 2)
+    assert "Traceback" not in checked.output
+
+
+def test_degrees_under_a_projected_crs_get_a_warning(tmp_path):
+    cores = "core_id,x,y\nC1,5.0,40.0\nC2,5.05,40.0\nC3,5.0,40.05\nC4,5.05,40.05\n"
+    project = write_project(tmp_path, cores=cores)
+    with pytest.warns(PaleomapWarning, match="like longitudes and latitudes"):
+        load_project(project)
+    # Real metres give no such warning.
+    with warnings.catch_warnings():
+        warnings.simplefilter("error", PaleomapWarning)
+        load_project(write_project(tmp_path / "metres"))

@@ -233,8 +233,10 @@ def load_project(
             "a map needs at least two cores with a record at a slice (three or more to fit "
             "a trend)",
         )
+    if not log.has_errors and cfg.crs is not None and not _is_geographic(cfg.crs):
+        _warn_degrees(cores, cfg, log)
     if not log.has_errors:
-        _check_grid_size(cores, grid, area, shown, TomlLocator(text), log)
+        _check_grid_size(cores, grid, area, shown, TomlLocator(text), log, migration)
     # Problems of spreadsheets, LAS and AGS4 files named at their place in those files.
     tables.origins.relocate(log)
     log.raise_if_errors()
@@ -720,7 +722,9 @@ def _read_transects(path, shown, project_crs, working, log, checksums, root, whe
     return tuple(out)
 
 
-def _check_grid_size(cores, grid, area, shown: str, locate: TomlLocator, log) -> None:
+def _check_grid_size(
+    cores, grid, area, shown: str, locate: TomlLocator, log, migration=None
+) -> None:
     """Refuse, before any work, a grid with more cells than paleomap allocates.
 
     The extent is the one :func:`paleomap.grid.make_grid` takes (the area's bounds, or
@@ -753,6 +757,8 @@ def _check_grid_size(cores, grid, area, shown: str, locate: TomlLocator, log) ->
     rows, cols = shape(cell)
     cells = rows * cols
     if np.isfinite(cells) and cells <= MAX_GRID_CELLS:
+        _check_small_grid(rows, cols, minx, miny, maxx, maxy, cell, shown, locate, log)
+        _check_transect_spacing(minx, miny, maxx, maxy, migration, shown, locate, log)
         return
     line = locate.line_of(("grid", "cell_size"))
     width, height = maxx - minx, maxy - miny
@@ -780,6 +786,70 @@ def _check_grid_size(cores, grid, area, shown: str, locate: TomlLocator, log) ->
         f"gives a grid of {_count(rows)} x {_count(cols)} = {_count(cells)} cells, more than the "
         f"{MAX_GRID_CELLS:,} paleomap allocates",
         f"use cell_size = {fit:.0f} or larger",
+    )
+
+
+def _warn_degrees(cores, cfg, log: ProblemLog) -> None:
+    """Warn when every core of a projected project sits where degrees would.
+
+    Longitudes and latitudes given under a projected CRS map a basin a few hundred
+    metres wide near the CRS origin: the build runs, the map is nonsense.
+    """
+    e = np.array([c.easting for c in cores], dtype=float)
+    n = np.array([c.northing for c in cores], dtype=float)
+    if not len(e) or np.any(np.abs(e) > 180.0) or np.any(np.abs(n) > 90.0):
+        return
+    log.warn(
+        cfg.cores,
+        cores[0].line or 1,
+        "x",
+        (float(e[0]), float(n[0])),
+        f"every core lies within ±180 and ±90, like longitudes and latitudes, but the project "
+        f"CRS {cfg.crs.name!r} is projected (metres)",
+        "if the coordinates are degrees, give their geographic CRS (e.g. EPSG:4326)",
+    )
+
+
+MIN_GRID_SIDE_CELLS = 3
+"""Fewest cells along each side of a grid: fewer cannot show a belt boundary between cores."""
+MAX_DEFAULT_TRANSECTS = 1000
+"""Most dip transects ``transect_spacing_m`` may ask for across the mapped area."""
+
+
+def _check_small_grid(rows, cols, minx, miny, maxx, maxy, cell, shown, locate, log) -> None:
+    """Refuse a cell as large as the mapped area (one cell cannot hold a map)."""
+    if min(rows, cols) >= MIN_GRID_SIDE_CELLS:
+        return
+    fit = float(min(maxx - minx, maxy - miny)) / MIN_GRID_SIDE_CELLS
+    log.error(
+        shown,
+        locate.line_of(("grid", "cell_size")),
+        "grid.cell_size",
+        cell,
+        f"gives a grid of {rows:.0f} x {cols:.0f} cells over an area of "
+        f"{maxx - minx:.4g} x {maxy - miny:.4g} m, fewer than {MIN_GRID_SIDE_CELLS} a side",
+        f"use cell_size = {fit:.4g} or smaller, or a larger margin or area",
+    )
+
+
+def _check_transect_spacing(minx, miny, maxx, maxy, migration, shown, locate, log) -> None:
+    """Refuse a transect spacing that would draw more transects than anyone could read."""
+    spacing = None if migration is None else migration.transect_spacing_m
+    if spacing is None or migration.transects is not None:
+        return
+    span = float(np.hypot(maxx - minx, maxy - miny))
+    with np.errstate(over="ignore", divide="ignore"):
+        count = span / spacing
+    if np.isfinite(count) and count <= MAX_DEFAULT_TRANSECTS:
+        return
+    log.error(
+        shown,
+        locate.line_of(("migration", "transect_spacing_m")),
+        "migration.transect_spacing_m",
+        spacing,
+        f"gives {_count(count)} transects across the {span:.4g} m wide mapped area, more than "
+        f"the {MAX_DEFAULT_TRANSECTS:,} paleomap draws",
+        f"use transect_spacing_m = {span / MAX_DEFAULT_TRANSECTS:.4g} or larger",
     )
 
 
