@@ -402,7 +402,6 @@ _SPECIAL = {
 _ODD_BUT_VALID = {
     "quote-at-end": {"picks": PICKS + '"'},
     "huge-depth": {"intervals": INTERVALS.replace("C1,30,40", "C1,30,1e300")},
-    "toml-huge-cell": {"keys": {"grid.cell_size": 1e308}},
     "toml-huge-age": {"keys": {"surfaces[3].age": 1e308}},
     "toml-huge-int-age": {"keys": {"surfaces[3].age": 10**18}},
     "crlf-and-bom": {"cores": b"\xef\xbb\xbf" + CORES.replace("\n", "\r\n").encode()},

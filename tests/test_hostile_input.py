@@ -324,9 +324,10 @@ def test_every_numeric_setting_has_a_range_checked_by_check(tmp_path, key, value
     ("keys", "message"),
     [
         ({"grid.cell_size": 30000.0}, "fewer than 3 a side"),
+        ({"grid.cell_size": 1e308}, "fewer than 3 a side"),
         ({"migration.transect_spacing_m": 1e-300}, "transects across the"),
     ],
-    ids=["cell-larger-than-area", "tiny-transect-spacing"],
+    ids=["cell-larger-than-area", "cell-1e308", "tiny-transect-spacing"],
 )
 def test_check_and_build_agree_on_degenerate_settings(tmp_path, keys, message):
     project = write_project(tmp_path, keys=keys)
