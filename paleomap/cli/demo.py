@@ -6,7 +6,8 @@ from pathlib import Path
 
 import click
 
-from .build import run_build
+from ..figures.all import FigureSettings
+from .build import figure_options, run_build
 
 __all__ = ["command", "demo_project_path"]
 
@@ -40,12 +41,28 @@ def demo_project_path() -> Path:
     is_flag=True,
     help="Refuse to replace an earlier demo build (by default it is replaced).",
 )
+@figure_options
 @click.pass_context
-def command(ctx: click.Context, out: Path, keep: bool) -> None:
+def command(
+    ctx: click.Context,
+    out: Path,
+    keep: bool,
+    vector: tuple[str, ...],
+    panel_datum: str | None,
+    panel_spacing: str,
+) -> None:
     """Build the bundled demo region (an invented shelf) into OUT.
 
     \b
     Example:
       paleomap demo --out demo_build
     """
-    run_build(demo_project_path(), out, overwrite=not keep, quiet=ctx.obj.get("quiet", False))
+    run_build(
+        demo_project_path(),
+        out,
+        overwrite=not keep,
+        quiet=ctx.obj.get("quiet", False),
+        figure_settings=FigureSettings(
+            vector=tuple(vector), panel_datum=panel_datum, panel_spacing=panel_spacing
+        ),
+    )
