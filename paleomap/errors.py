@@ -24,6 +24,8 @@ from dataclasses import dataclass
 
 __all__ = [
     "InputError",
+    "BuildBusyError",
+    "BuildWriteError",
     "OutputExistsError",
     "PaleomapError",
     "PaleomapWarning",
@@ -38,6 +40,17 @@ class PaleomapError(Exception):
 
 class OutputExistsError(PaleomapError, FileExistsError):
     """An output already exists and replacing it was not asked for."""
+
+
+class BuildBusyError(PaleomapError, BlockingIOError):
+    """Another paleomap process is writing the same build folder right now."""
+
+
+class BuildWriteError(PaleomapError, OSError):
+    """The system refused to write a build (no permission, disk full, busy mount point).
+
+    Raised only after the temporary folder is removed; the previous build is whole.
+    """
 
 
 class PaleomapWarning(UserWarning):
@@ -65,6 +78,15 @@ class Problem:
         What is wrong, e.g. ``"is not a number"``.
     hint : str or None
         What is allowed, or how to fix it.
+    place : str or None
+        Where in the file, for files that are not plain text tables: a spreadsheet's
+        ``"sheet 'Cores', row 5"``, a LAS file's ``"~Well section, mnemonic 'WELL'"``,
+        an AGS4 file's ``"group GEOL, row 3"``. Shown after the line.
+
+    Examples
+    --------
+    >>> str(Problem("wells.xlsx", None, "UWI", "", "is empty", place="sheet 'Cores', row 4"))
+    "wells.xlsx, sheet 'Cores', row 4, column 'UWI': is empty (got '')"
     """
 
     file: str | None
@@ -73,6 +95,7 @@ class Problem:
     value: object
     message: str
     hint: str | None = None
+    place: str | None = None
 
     def location(self) -> str:
         parts = []
@@ -80,6 +103,8 @@ class Problem:
             parts.append(str(self.file))
         if self.line is not None:
             parts.append(f"line {self.line}")
+        if self.place:
+            parts.append(self.place)
         if self.column:
             parts.append(f"column {self.column!r}")
         return ", ".join(parts)
@@ -135,11 +160,11 @@ class ProblemLog:
         self.errors: list[Problem] = []
         self.warnings: list[Problem] = []
 
-    def error(self, file, line, column, value, message, hint=None) -> None:
-        self.errors.append(Problem(_s(file), line, column, value, message, hint))
+    def error(self, file, line, column, value, message, hint=None, *, place=None) -> None:
+        self.errors.append(Problem(_s(file), line, column, value, message, hint, place))
 
-    def warn(self, file, line, column, value, message, hint=None) -> None:
-        self.warnings.append(Problem(_s(file), line, column, value, message, hint))
+    def warn(self, file, line, column, value, message, hint=None, *, place=None) -> None:
+        self.warnings.append(Problem(_s(file), line, column, value, message, hint, place))
 
     @property
     def has_errors(self) -> bool:

@@ -793,24 +793,29 @@ def build(
 ) -> BuildResult:
     """Compute every map of ``project`` and write the build folder ``out``.
 
-    Refuses to replace an existing build unless ``overwrite`` (checked before any work).
+    Refuses to replace an existing build unless ``overwrite``, and to replace a folder
+    holding anything the earlier build did not write or any input of ``project``
+    (checked before any work). The folder's lock is held from the check to the end.
 
     Returns
     -------
     BuildResult
     """
-    from .io.atomic import check_build_target
+    from .io.atomic import build_lock, check_build_target
 
-    check_build_target(out, overwrite=overwrite)
-    result = compute(project)
-    t = time.perf_counter()
-    write_build(
-        result,
-        out,
-        overwrite=overwrite,
-        figures=figures,
-        report=report,
-        figure_settings=figure_settings,
-    )
+    root = Path(project.path).parent
+    inputs = [Path(project.path), *(root / name for name in project.checksums)]
+    with build_lock(out):
+        check_build_target(out, overwrite=overwrite, inputs=inputs)
+        result = compute(project)
+        t = time.perf_counter()
+        write_build(
+            result,
+            out,
+            overwrite=overwrite,
+            figures=figures,
+            report=report,
+            figure_settings=figure_settings,
+        )
     result.timings["writing"] = time.perf_counter() - t
     return result

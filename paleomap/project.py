@@ -23,6 +23,7 @@ from pyproj.crs import CoordinateOperation, ProjectedCRS
 from .cores import Core
 from .errors import Problem, ProblemLog
 from .figures.palette import belt_colors
+from .io.sources import INPUT_KEYS, InputSources, read_sources
 from .scheme import _HEX, BUILTIN_SCHEMES, Belt, Scheme, _scheme_problems, builtin_scheme
 
 __all__ = [
@@ -215,7 +216,7 @@ MAPPING_MODELS = ("auto", "exponential", "spherical", "gaussian", "matern32")
 
 _TABLES = {
     "project": ("name", "crs"),
-    "inputs": ("cores", "intervals", "picks", "depth_unit"),
+    "inputs": INPUT_KEYS,
     "time": ("age_unit",),
     "surfaces": ("name", "age", "age_sd", "erosional"),
     "scheme": ("builtin", "belts", "track", "colors", "name"),
@@ -271,6 +272,9 @@ class ProjectConfig:
     belts : tuple of Belt or None
         The scheme's belts as read, also when the scheme breaks a rule (so that the
         facies of the intervals can still be checked in the same pass).
+    sources : InputSources
+        How the tables are read: column mapping, sheets, depth reference, LAS and AGS4
+        settings (:mod:`paleomap.io.sources`).
     """
 
     file: str
@@ -289,6 +293,7 @@ class ProjectConfig:
     migration: MigrationSettings = field(default_factory=MigrationSettings)
     lines: dict = field(default_factory=dict)
     belts: tuple[Belt, ...] | None = None
+    sources: InputSources = field(default_factory=InputSources)
 
 
 def parse_config(
@@ -623,8 +628,17 @@ class _ConfigReader:
         inputs = self.table("inputs") or {}
         lines = {}
         if "inputs" in self.data:
+            sources = read_sources(self, inputs)
+            out["sources"] = sources
+            # LAS files and AGS4 files give cores and intervals; an AGS4 file with a
+            # formation field gives picks.
+            given = {
+                "cores": bool(sources.logs or sources.ags),
+                "intervals": bool(sources.logs or sources.ags),
+                "picks": bool(sources.ags and sources.ags_formation),
+            }
             for key in ("cores", "intervals", "picks"):
-                out[key] = self.text(inputs, ("inputs",), key)
+                out[key] = self.text(inputs, ("inputs",), key, required=not given[key])
                 lines[f"inputs.{key}"] = self.locate.line_of(("inputs", key))
             out["depth_unit"] = self.text(
                 inputs, ("inputs",), "depth_unit", choices=tuple(DEPTH_UNITS)

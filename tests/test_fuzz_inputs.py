@@ -457,11 +457,22 @@ _CATALOGUED = (
     "scheme.py",
     "grid.py",
     "io/readers.py",
+    "io/sources.py",
+    "io/sheets.py",
+    "io/assemble.py",
     "io/atomic.py",
     "cli/demo.py",
 )
 # Call name -> position of the message argument.
-_MESSAGE_ARG = {"error": 4, "err": 2, "Problem": 4, "bad": 2, "OutputExistsError": 0}
+_MESSAGE_ARG = {
+    "error": 4,
+    "err": 2,
+    "Problem": 4,
+    "bad": 2,
+    "OutputExistsError": 0,
+    "BuildWriteError": 0,
+    "BuildBusyError": 0,
+}
 
 
 def _fixed_text(node) -> str | None:

@@ -17,7 +17,7 @@ import pyogrio
 import pytest
 from shapely.geometry import Point, Polygon
 
-from paleomap.errors import OutputExistsError, PaleomapError
+from paleomap.errors import OutputExistsError, PaleomapError, PaleomapWarning
 from paleomap.io import atomic
 from paleomap.io.atomic import (
     BUILD_MARKER,
@@ -138,13 +138,16 @@ def test_new_build_moves_into_place(tmp_path):
     target = tmp_path / "out" / "build"
     with atomic_build_dir(target, overwrite=False) as tmp:
         assert tmp.parent == target.parent
-        assert tmp.name == f".build.partial-{os.getpid()}"
+        assert tmp.name.startswith(f".build.partial-{os.getpid()}-")
         assert not target.exists()
+        # The writer holds the folder's lock while it writes.
+        assert atomic.lock_path(target).is_file()
         (tmp / "rasters").mkdir()
         atomic_write_text(tmp / "rasters" / "a.txt", "x")
     assert (target / "rasters" / "a.txt").read_text() == "x"
     marker = json.loads((target / BUILD_MARKER).read_text())
-    assert set(marker) == {"paleomap", "completed_utc"}
+    assert set(marker) == {"paleomap", "completed_utc", "files"}
+    assert marker["files"] == ["rasters/a.txt"]
     assert _beside(target) == []
 
 
@@ -183,7 +186,7 @@ def test_failed_swap_restores_old_build(tmp_path, monkeypatch):
     real_rename = os.rename
 
     def rename(src, dst):
-        if Path(src).name.startswith(".build.partial-"):
+        if Path(src).name.startswith(".build.partial-") and Path(dst) == target:
             raise OSError("disk gone")
         return real_rename(src, dst)
 
@@ -223,10 +226,13 @@ def test_overwrite_refuses_folder_that_is_not_a_build(tmp_path):
         with atomic_build_dir(target, overwrite=True):
             pass
     assert (target / "chapter1.docx").read_text() == "precious"
-    # Without the marker check the caller takes responsibility.
-    with atomic_build_dir(target, overwrite=True, marker=None) as tmp:
-        atomic_write_text(tmp / "a.txt", "a")
+    # Without the marker check the folder is replaced, but its files are still kept.
+    with pytest.warns(PaleomapWarning, match="kept in"):
+        with atomic_build_dir(target, overwrite=True, marker=None) as tmp:
+            atomic_write_text(tmp / "a.txt", "a")
     assert sorted(p.name for p in target.iterdir()) == ["a.txt"]
+    (kept,) = tmp_path.glob("thesis.kept-*")
+    assert (kept / "chapter1.docx").read_text() == "precious"
 
 
 def test_overwrite_accepts_empty_folder(tmp_path):
@@ -299,12 +305,13 @@ def test_leftovers_after_swap_are_removed(tmp_path):
     (tmp_path / f".build.old-{dead}").mkdir()
     (tmp_path / f".build.partial-{dead}").mkdir()
     (tmp_path / f".build.partial-{dead}" / "half.gpkg").write_bytes(b"x")
-    running = tmp_path / f".build.partial-{os.getppid()}"
+    # A process id that is running means nothing: only the lock says who writes.
+    running = tmp_path / f".build.partial-{os.getppid()}-00ff"
     running.mkdir()
     (tmp_path / ".other.partial-1").mkdir()
     recover_leftovers(target)
     _assert_old_build_intact(target)
-    assert _beside(target) == sorted([running.name, ".other.partial-1"])
+    assert _beside(target) == [".other.partial-1"]
 
 
 def test_recover_leftovers_without_parent_is_harmless(tmp_path):
@@ -370,7 +377,7 @@ def test_build_killed_mid_write_keeps_old_build(tmp_path):
     try:
         # The first layer is in the half-written GeoPackage when the writer dies.
         _wait_for(proc, "layer written")
-        partial = tmp_path / f".build.partial-{proc.pid}"
+        (partial,) = tmp_path.glob(f".build.partial-{proc.pid}-*")
         assert any(p.suffix == ".gpkg" for p in partial.iterdir())
         proc.send_signal(signal.SIGKILL)
     finally:
@@ -380,6 +387,8 @@ def test_build_killed_mid_write_keeps_old_build(tmp_path):
     assert proc.returncode == -signal.SIGKILL
     _assert_old_build_intact(target)
     assert partial.exists()  # SIGKILL leaves no chance to tidy up
+    # The dead writer's lock file stays, but nobody holds it any more.
+    assert atomic.lock_path(target).is_file()
 
     # The leftover does not confuse the next run, and is removed by it.
     with atomic_build_dir(target, overwrite=True) as tmp:

@@ -4,12 +4,15 @@ Each command lives in a module of its own, parses its options, calls the public 
 and reports. Only this package prints; the library logs through :mod:`logging`.
 
 A :class:`~paleomap.errors.PaleomapError` becomes one clean message on standard
-error and exit status 2; any other exception is a bug and exits 1.
+error and exit status 2 (bad input, a refused output folder, and faults of the system
+such as no permission or a full disk); Ctrl-C exits 130 and SIGTERM 143, each after
+removing the temporary folder; any other exception is a bug and exits 1.
 """
 
 from __future__ import annotations
 
 import logging
+import signal
 import sys
 import warnings
 
@@ -21,8 +24,27 @@ from ..errors import PaleomapError, PaleomapWarning
 __all__ = ["main"]
 
 
+class _Terminated(KeyboardInterrupt):
+    """SIGTERM, raised where the process is so that every temporary folder is removed."""
+
+
+def _on_sigterm(signum, frame) -> None:
+    raise _Terminated()
+
+
 class _Group(click.Group):
     def invoke(self, ctx: click.Context):
+        try:
+            previous = signal.signal(signal.SIGTERM, _on_sigterm)
+        except ValueError:  # not the main thread (e.g. a test runner): leave it be
+            previous = None
+        try:
+            return self._invoke(ctx)
+        finally:
+            if previous is not None:
+                signal.signal(signal.SIGTERM, previous)
+
+    def _invoke(self, ctx: click.Context):
         try:
             with warnings.catch_warnings(record=True) as caught:
                 warnings.simplefilter("always", PaleomapWarning)
@@ -35,6 +57,9 @@ class _Group(click.Group):
             ctx.exit(2)
         except (click.exceptions.Exit, click.exceptions.Abort, click.ClickException):
             raise
+        except _Terminated:
+            click.echo("Terminated; nothing was replaced.", err=True)
+            ctx.exit(143)
         except KeyboardInterrupt:
             click.echo("Interrupted; nothing was replaced.", err=True)
             ctx.exit(130)

@@ -37,21 +37,24 @@ def demo_project_path() -> Path:
     help="Build folder to write.",
 )
 @click.option(
-    "--keep",
+    "--overwrite",
     is_flag=True,
-    help="Refuse to replace an earlier demo build (by default it is replaced).",
+    help="Replace an earlier build in OUT (as for build: only a folder paleomap wrote).",
 )
 @figure_options
 @click.pass_context
 def command(
     ctx: click.Context,
     out: Path,
-    keep: bool,
+    overwrite: bool,
     vector: tuple[str, ...],
     panel_datum: str | None,
     panel_spacing: str,
 ) -> None:
     """Build the bundled demo region (an invented shelf) into OUT.
+
+    Follows the rules of ``build``: an existing OUT is refused unless --overwrite, and
+    --overwrite replaces only a folder that holds nothing but an earlier build.
 
     \b
     Example:
@@ -60,7 +63,7 @@ def command(
     run_build(
         demo_project_path(),
         out,
-        overwrite=not keep,
+        overwrite=overwrite,
         quiet=ctx.obj.get("quiet", False),
         figure_settings=FigureSettings(
             vector=tuple(vector), panel_datum=panel_datum, panel_spacing=panel_spacing

@@ -36,6 +36,8 @@ from ..agemodel import build_age_models, sample_slices
 from ..cores import build_cores, parse_number
 from ..errors import ProblemLog
 from ..project import Project, ProjectConfig, TomlLocator, parse_config, working_crs_for
+from .assemble import read_tables
+from .sources import header_names
 
 __all__ = ["CORE_COLUMNS", "INTERVAL_COLUMNS", "PICK_COLUMNS", "load_project", "read_csv_table"]
 
@@ -129,31 +131,23 @@ def load_project(path: str | os.PathLike) -> Project:
             return None
         return target
 
-    tables = {}
-    for key, columns in (
-        ("intervals", INTERVAL_COLUMNS),
-        ("picks", PICK_COLUMNS),
-    ):
-        name = getattr(cfg, key)
-        target = source(f"inputs.{key}", name)
-        tables[key] = (
-            None
-            if target is None
-            else _read_csv_checked(target, name, *columns, log, checksums, root)
-        )
-
-    cores_target = source("inputs.cores", cfg.cores)
-    cores_table = None
-    if cores_target is not None:
-        if cores_target.suffix.lower() in _CSV_SUFFIXES:
-            cores_table = _read_csv_checked(
-                cores_target, cfg.cores, *CORE_COLUMNS, log, checksums, root
-            )
-        else:
-            where = (shown, cfg.lines.get("inputs.cores"), "inputs.cores")
-            cores_table = _read_core_vector(
-                cores_target, cfg.cores, cfg.crs, log, checksums, root, where
-            )
+    tables = read_tables(
+        cfg,
+        root,
+        shown,
+        log,
+        source=source,
+        readers={
+            "csv": lambda target, name, required, optional, log, columns: _read_csv_checked(
+                target, name, required, optional, log, checksums, root, columns
+            ),
+            "vector": lambda target, name, where: _read_core_vector(
+                target, name, cfg.crs, log, checksums, root, where
+            ),
+            "checksum": lambda target: _checksum(target, root, checksums),
+        },
+    )
+    cores_table = tables.cores
 
     working = None
     if cfg.crs is not None:
@@ -169,19 +163,18 @@ def load_project(path: str | os.PathLike) -> Project:
             # No position could be projected: every core is reported as such.
             cores_table = cores_table.assign(easting=np.nan, northing=np.nan)
 
-    files = {"cores": cfg.cores, "intervals": cfg.intervals, "picks": cfg.picks}
     cores = ()
-    if cores_table is not None and tables["intervals"] is not None and tables["picks"] is not None:
+    if cores_table is not None and tables.intervals is not None and tables.picks is not None:
         cores = build_cores(
             cores_table,
-            tables["intervals"],
-            tables["picks"],
+            tables.intervals,
+            tables.picks,
             cfg.scheme if cfg.scheme is not None else _belt_names(cfg),
             cfg.surfaces,
-            files=files,
+            files=tables.files,
             log=log,
         )
-    elif cores_table is not None or tables["intervals"] is not None or tables["picks"] is not None:
+    elif cores_table is not None or tables.intervals is not None or tables.picks is not None:
         logger.debug("a core table is missing; cross-table checks are skipped")
 
     area = None
@@ -205,12 +198,13 @@ def load_project(path: str | os.PathLike) -> Project:
                 target, str(cfg.migration.transects), cfg.crs, working, log, checksums, root, where
             )
 
+    cores_file = tables.files.get("cores", cfg.cores)
     if not log.has_errors and not cores:
-        log.error(cfg.cores, 1, None, None, "lists no core", "add at least two cores")
+        log.error(cores_file, 1, None, None, "lists no core", "add at least two cores")
     elif not log.has_errors and len(cores) == 1:
         # One point fixes no direction and no distance: there is nothing to map.
         log.error(
-            cfg.cores,
+            cores_file,
             cores[0].line or 1,
             "core_id",
             cores[0].core_id,
@@ -220,6 +214,8 @@ def load_project(path: str | os.PathLike) -> Project:
         )
     if not log.has_errors:
         _check_grid_size(cores, grid, area, shown, TomlLocator(text), log)
+    # Problems of spreadsheets, LAS and AGS4 files named at their place in those files.
+    tables.origins.relocate(log)
     log.raise_if_errors()
     project = Project(
         name=cfg.name,
@@ -333,7 +329,7 @@ def _checksum(path: Path, root: Path, checksums: dict) -> None:
         checksums[key] = hashlib.sha256(p.read_bytes()).hexdigest()
 
 
-def _read_csv_checked(path, name, required, optional, log, checksums, root):
+def _read_csv_checked(path, name, required, optional, log, checksums, root, columns=None):
     raw = _read_bytes(path, name, None, None, log)
     if raw is None:
         return None
@@ -341,10 +337,10 @@ def _read_csv_checked(path, name, required, optional, log, checksums, root):
     text = _decode(raw, name, log)
     if text is None:
         return None
-    return _parse_csv(text, name, required, optional, log)
+    return _parse_csv(text, name, required, optional, log, columns)
 
 
-def _parse_csv(text: str, shown: str, required, optional, log: ProblemLog):
+def _parse_csv(text: str, shown: str, required, optional, log: ProblemLog, columns=None):
     """Text cells of a CSV file, with the line each row starts on."""
     example = ",".join(required)
     if not text.strip():
@@ -382,7 +378,7 @@ def _parse_csv(text: str, shown: str, required, optional, log: ProblemLog):
     if header is None:  # only blank rows, e.g. ",,,"
         log.error(shown, 1, None, None, "has no header row", f"it needs a header row: {example}")
         return None
-    names = [h.lower() for h in header]
+    names = header_names(header, columns)
     problems = False
     for i, n in enumerate(names):
         if not n:
@@ -393,11 +389,14 @@ def _parse_csv(text: str, shown: str, required, optional, log: ProblemLog):
             problems = True
     missing = [c for c in required if c not in names]
     if missing:
-        hint = f"the header has {header}; required columns: {list(required)}"
+        wanted = [(columns or {}).get(c, c) for c in required]
+        hint = f"the header has {header}; required columns: {wanted}"
         if len(header) == 1 and any(sep in header[0] for sep in (";", "\t", "|")):
             hint = "the file seems to use another separator; paleomap reads comma-separated files"
         for c in missing:
-            log.error(shown, header_line, c, None, "is a missing column", hint)
+            log.error(
+                shown, header_line, (columns or {}).get(c, c), None, "is a missing column", hint
+            )
         return None
     if problems:
         return None
