@@ -218,7 +218,7 @@ def migration_map(result: BuildResult, ax: Axes | None = None) -> Axes:
         drop_overlapping(transect_labels, renderer)
 
         # the age key: every slice ticked, as many named as fit without touching
-        cax = ax.inset_axes((1.04, 0.0, 0.035, 1.0), transform=box)
+        cax = ax.inset_axes((1.04, 0.2, 0.035, 0.8), transform=box)
         sm = ScalarMappable(norm=anorm, cmap=acmap)
         cb = ax.figure.colorbar(sm, cax=cax)
         cb.set_label(f"Slice age ({unit}), older darker", fontsize=8)
@@ -274,6 +274,7 @@ def migration_map(result: BuildResult, ax: Axes | None = None) -> Axes:
             borderaxespad=0.0,
             handlelength=2.6,
         )
-        scale_bar(ax, anchor=(1.04, -0.13), fraction=0.15)
-        north_arrow(ax, at=(1.30, -0.2), height=0.07)
+        # scale bar and north arrow in the column under the age scale, clear of the key
+        scale_bar(ax, anchor=(1.04, 0.0), fraction=0.15)
+        north_arrow(ax, at=(1.36, 0.0), height=0.09)
     return ax

@@ -16,7 +16,7 @@ This module imports no plotting library, so rasters and styles can use it.
 Examples
 --------
 >>> belt_colors([False, False, True, True, True])
-('#7c4123', '#e3c77f', '#f7f0c4', '#68b3ad', '#245986')
+('#8b4e27', '#e3c77f', '#f7f0c4', '#68b3ad', '#245986')
 """
 
 from __future__ import annotations
