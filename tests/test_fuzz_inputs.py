@@ -460,6 +460,8 @@ _CATALOGUED = (
     "io/sources.py",
     "io/sheets.py",
     "io/assemble.py",
+    "io/las.py",
+    "io/ags.py",
     "io/atomic.py",
     "cli/demo.py",
 )

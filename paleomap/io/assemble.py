@@ -58,7 +58,8 @@ class Where:
         Where in the file besides the line (``"~ASCII section"``, ``"group GEOL, row 3"``).
     columns : dict
         paleomap's column name to the name the file uses (a curve mnemonic, an AGS4
-        heading), for this row.
+        heading), or to the :class:`Where` of a value kept elsewhere in the file (a LAS
+        header mnemonic), for this row.
     """
 
     file: str
@@ -101,13 +102,13 @@ class Origins:
             where = self._rows[table].get(p.line)
             if where is None:
                 return p
-            return replace(
-                p,
-                file=where.file,
-                line=where.line,
-                place=where.place,
-                column=where.columns.get(p.column, p.column),
-            )
+            target = where.columns.get(p.column, p.column)
+            if isinstance(target, Where):
+                # A header value: its own line and place (a LAS mnemonic).
+                return replace(
+                    p, file=target.file, line=target.line, place=target.place, column=None
+                )
+            return replace(p, file=where.file, line=where.line, place=where.place, column=target)
         column = self._columns.get(table, {}).get(p.column, p.column)
         if table in self._sheets:
             file, sheet = self._sheets[table]
@@ -163,7 +164,16 @@ def read_tables(cfg, root: Path, project_file: str, log: ProblemLog, *, source, 
         from .las import read_logs
 
         wells, made["intervals"] = read_logs(
-            sources, root, project_file, cfg.depth_unit, log, out.origins, readers["checksum"]
+            sources,
+            root,
+            project_file,
+            cfg.depth_unit,
+            log,
+            out.origins,
+            readers["checksum"],
+            scheme=cfg.scheme,
+            crs=cfg.crs,
+            positions=cfg.cores is None,
         )
         made["cores"] = wells
         for key, table in made.items():
@@ -175,7 +185,14 @@ def read_tables(cfg, root: Path, project_file: str, log: ProblemLog, *, source, 
         target = source("inputs.ags", sources.ags)
         if target is not None:
             made = read_ags(
-                target, sources, project_file, cfg.depth_unit, log, out.origins, readers
+                target,
+                sources,
+                project_file,
+                cfg.depth_unit,
+                log,
+                out.origins,
+                readers,
+                scheme=cfg.scheme,
             )
             for key, table in made.items():
                 if table is not None and names.get(key) is None:
@@ -192,6 +209,11 @@ def read_tables(cfg, root: Path, project_file: str, log: ProblemLog, *, source, 
         setattr(out, key, table)
         if table is not None:
             names[key] = table.attrs.get("name", value)
+    failed = wells.attrs.get("failed", set()) if wells is not None else set()
+    if failed and out.picks is not None:
+        # A well whose LAS file has a problem is not read; its picks wait for the fix.
+        keep = [str(c).strip() not in failed for c in out.picks["core_id"]]
+        out.picks = out.picks[keep].reset_index(drop=True)
     if wells is not None and cfg.cores is not None and out.cores is not None:
         out.cores = _datum_from_wells(out.cores, wells)
     out.files = {k: v for k, v in names.items() if v is not None}
@@ -226,15 +248,16 @@ def _read_table(key, target: Path, value: str, cfg, log, out: Tables, readers):
 
 
 def _datum_from_wells(cores: pd.DataFrame, wells: pd.DataFrame) -> pd.DataFrame:
-    """Datum elevations of the LAS headers for the cores whose table gives none."""
-    datum = dict(zip(wells["core_id"], wells["datum_elevation"], strict=True))
+    """Elevations of the LAS headers for the cores whose table gives none."""
     cores = cores.copy()
-    if "datum_elevation" not in cores:
-        cores["datum_elevation"] = ""
-    cores["datum_elevation"] = [
-        d if str(d).strip() else datum.get(str(cid).strip(), "")
-        for cid, d in zip(cores["core_id"], cores["datum_elevation"], strict=True)
-    ]
+    for column in ("elevation", "datum_elevation"):
+        header = dict(zip(wells["core_id"], wells[column], strict=True))
+        if column not in cores:
+            cores[column] = ""
+        cores[column] = [
+            v if str(v).strip() else header.get(str(cid).strip(), "")
+            for cid, v in zip(cores["core_id"], cores[column], strict=True)
+        ]
     return cores
 
 

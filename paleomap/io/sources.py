@@ -28,6 +28,7 @@ __all__ = [
     "InputSources",
     "code_text",
     "header_names",
+    "length_factor",
     "read_sources",
 ]
 
@@ -50,6 +51,18 @@ INPUT_KEYS = (
     "depth_reference",
     "columns",
     "sheets",
+    "logs",
+    "facies_curve",
+    "facies_codes",
+    "well_id",
+    "position",
+    "datum",
+    "top_elevation",
+    "ags",
+    "ags_facies",
+    "ags_legend",
+    "ags_formation",
+    "ags_surfaces",
 )
 """Every key of the ``[inputs]`` table."""
 
@@ -220,6 +233,13 @@ def read_sources(reader, inputs: dict) -> InputSources:
             "log",
             "mixes depth references: AGS4 depths are below ground level",
             'AGS4 files give depths below the core top; use depth_reference = "core_top"',
+        )
+    if "ags_formation" in out and "picks" in inputs:
+        reader.err(
+            (*p, "picks"),
+            inputs["picks"],
+            "is given together with ags_formation",
+            "the picks come from one source: delete picks, or ags_formation",
         )
     if "ags_surfaces" in out and "ags_formation" not in out:
         reader.err(
@@ -409,3 +429,36 @@ def header_names(header, columns: dict | None) -> list[str]:
         else:
             out.append(n)
     return out
+
+
+_LENGTH_M = {
+    "M": 1.0,
+    "METER": 1.0,
+    "METERS": 1.0,
+    "METRE": 1.0,
+    "METRES": 1.0,
+    "F": 0.3048,
+    "FT": 0.3048,
+    "FEET": 0.3048,
+    "FOOT": 0.3048,
+}
+_DEPTH_UNIT_M = {"m": 1.0, "ft": 0.3048}
+
+
+def length_factor(unit: str, depth_unit: str | None) -> float | None:
+    """Length of one ``unit`` (as a LAS or AGS4 file writes it) in the project's depth unit.
+
+    None when the unit is not a length paleomap knows; 1 when the project's unit is not
+    known (the problem is reported elsewhere).
+
+    Examples
+    --------
+    >>> length_factor("FT", "m"), length_factor("m", "m"), length_factor("s", "m")
+    (0.3048, 1.0, None)
+    """
+    unit = str(unit).strip().upper()
+    if unit not in _LENGTH_M:
+        return None
+    if depth_unit is None or depth_unit not in _DEPTH_UNIT_M:
+        return 1.0
+    return _LENGTH_M[unit] / _DEPTH_UNIT_M[depth_unit]
