@@ -10,6 +10,8 @@ import pyproj
 import pytest
 from click.testing import CliRunner
 from conftest import CORES, INTERVALS, PICKS, REMOVE, write_project
+from hypothesis import given, settings
+from hypothesis import strategies as st
 
 from paleomap.agemodel import sample_slices
 from paleomap.cli import main
@@ -387,3 +389,119 @@ def test_a_hand_written_las_2_file(tmp_path):
         "base": pytest.approx([1001.5 * ft, 1004.5 * ft]),
         "facies": ["clay", "silt"],
     }
+
+
+# A LAS 3.0 file as the standard writes one: ~Parameter, comma-delimited data (lasio 0.32
+# splits "500.0, 1"; without the space after the comma it reads one column, which
+# paleomap refuses below).
+_LAS3 = """\
+~Version
+VERS.   3.0 : CWLS LOG ASCII STANDARD - VERSION 3.0
+WRAP.   NO  : ONE LINE PER DEPTH STEP
+DLM .   COMMA : DELIMITING CHARACTER
+~Well
+STRT.M  500.0 : START DEPTH
+STOP.M  502.0 : STOP DEPTH
+STEP.M  0.5   : STEP
+NULL.   -999.25 : NULL VALUE
+WELL.   V3-1  : WELL
+LATI.DEG 45.5 : LATITUDE
+LONG.DEG -63.25 : LONGITUDE
+~Parameter
+EKB .M  20.0 : KELLY BUSHING
+EGL .M  15.0 : GROUND LEVEL
+~Curve
+DEPT .M      : DEPTH
+FACIES.      : FACIES CODE
+~Ascii
+500.0, 1
+500.5, 1
+501.0, 2
+501.5, 2
+502.0, -999.25
+"""
+
+
+def _read_one_file(tmp_path, text: str, **settings):
+    from paleomap.errors import ProblemLog
+    from paleomap.io.assemble import Origins
+    from paleomap.io.las import read_logs
+    from paleomap.io.sources import InputSources
+
+    (tmp_path / "logs").mkdir(exist_ok=True)
+    (tmp_path / "logs" / "one.las").write_text(text)
+    sources = InputSources(
+        logs="logs",
+        facies_curve="FACIES",
+        facies_codes={"1": "clay", "2": "silt"},
+        **settings,
+    )
+    log = ProblemLog()
+    cores, intervals = read_logs(
+        sources, tmp_path, "project.toml", "m", log, Origins(), lambda p: None
+    )
+    return cores, intervals, [str(p) for p in log.errors]
+
+
+def test_a_las_3_file_in_log_depth(tmp_path):
+    cores, intervals, errors = _read_one_file(tmp_path, _LAS3, depth_reference="log")
+    assert errors == []
+    row = cores.iloc[0]
+    assert (row["core_id"], row["x"], row["y"]) == ("V3-1", -63.25, 45.5)
+    assert (row["elevation"], row["datum_elevation"]) == (15.0, 20.0)
+    # The last sample is null: the run of 2 ends half a step below 501.5.
+    assert intervals[["top", "base", "facies"]].values.tolist() == [
+        [499.75, 500.75, "clay"],
+        [500.75, 501.75, "silt"],
+    ]
+
+
+def test_comma_data_lasio_cannot_split_is_refused(tmp_path):
+    text = _LAS3.replace(", ", ",")
+    _, _, errors = _read_one_file(tmp_path, text, depth_reference="log")
+    assert errors == [
+        "logs/one.las, line 19, ~ASCII section: has 5 data lines but lasio read another "
+        "number of rows (got 10). The values could not be split into the curves: check the "
+        "delimiter (DLM; with COMMA write a space after each comma) and that every line has "
+        "one value per curve"
+    ]
+
+
+def test_log_depths_read_as_below_the_core_top_are_refused(tmp_path):
+    # The file is measured from the kelly bushing 5 m above ground: mixing references.
+    _, _, errors = _read_one_file(tmp_path, _LAS3)
+    assert errors == [
+        "logs/one.las, line 14, ~Parameter section, mnemonic 'EKB': mixes depth references: "
+        "the log's depths are measured from a datum 5 above the core top (15) (got 20.0). "
+        'Set depth_reference = "log" (and give the picks in log depth too), or give the '
+        "datum as the core top"
+    ]
+
+
+def test_a_null_depth_is_refused(tmp_path):
+    text = _LAS3.replace("501.0, 2", "-999.25, 2")
+    _, _, errors = _read_one_file(tmp_path, text, depth_reference="log")
+    assert errors == [
+        "logs/one.las, line 22, ~ASCII section, column 'DEPT': has a null or missing depth. "
+        "Every row needs a depth"
+    ]
+
+
+@given(
+    steps=st.lists(st.floats(0.01, 5.0), min_size=1, max_size=30),
+    codes=st.lists(st.sampled_from(["a", "b", None]), min_size=2, max_size=31),
+)
+@settings(max_examples=100, deadline=None)
+def test_intervals_from_samples_honour_every_sample(steps, codes):
+    n = min(len(steps) + 1, len(codes))
+    depths = np.concatenate([[100.0], 100.0 + np.cumsum(steps)])[:n]
+    codes = codes[:n]
+    got = intervals_from_samples(depths, codes, step=1.0)
+    # Ordered, not overlapping, one code each, never two touching runs of one code.
+    for (_, b0, c0, _), (t1, _, c1, _) in zip(got, got[1:], strict=False):
+        assert b0 <= t1
+        assert not (b0 == t1 and c0 == c1)
+    # Every sample with a code lies in an interval of its code; nulls in none.
+    for d, c in zip(depths, codes, strict=True):
+        inside = [code for top, base, code, _ in got if top < d < base]
+        assert inside == ([] if c is None else [c])

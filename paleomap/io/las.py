@@ -402,6 +402,24 @@ def _read_one(path, shown, sources, depth_unit, log, codes, crs, positions, chec
             ok = False
     if "@datum_elevation" not in header:
         header["@datum_elevation"] = section("P")
+    datum, top = header.get("datum_elevation"), header.get("elevation")
+    if (
+        sources.depth_reference == "core_top"
+        and isinstance(datum, float)
+        and isinstance(top, float)
+        and datum - top > 1e-6
+    ):
+        # The file's depths are below a datum above the core top, the project's below the
+        # top: read together, every depth of this well would be off by the datum's height.
+        bad(
+            header["@datum_elevation"],
+            datum,
+            f"mixes depth references: the log's depths are measured from a datum "
+            f"{datum - top:g} above the core top ({top:g})",
+            'set depth_reference = "log" (and give the picks in log depth too), or give '
+            "the datum as the core top",
+        )
+        ok = False
 
     # -- the curves ------------------------------------------------------------------------
     mnemonics = [c.mnemonic for c in las.curves]
@@ -450,6 +468,17 @@ def _read_one(path, shown, sources, depth_unit, log, codes, crs, positions, chec
     values = las.curves[upper.index(curve)].data
     name = mnemonics[upper.index(curve)]
     rows_have_lines = len(layout.data) == len(depths)
+    wrapped = _text(las.version["WRAP"].value).upper() == "YES" if "WRAP" in las.version else False
+    if not rows_have_lines and not wrapped:
+        bad(
+            section("A"),
+            len(depths),
+            f"has {len(layout.data)} data lines but lasio read another number of rows",
+            "the values could not be split into the curves: check the delimiter (DLM; "
+            "with COMMA write a space after each comma) and that every line has one value "
+            "per curve",
+        )
+        return cid, header, None
 
     def row_where(i: int, column: str) -> Where:
         if rows_have_lines:
@@ -460,7 +489,12 @@ def _read_one(path, shown, sources, depth_unit, log, codes, crs, positions, chec
     if len(depths) == 0:
         bad(section("A"), None, "has no data rows", "the ~ASCII section holds the samples")
         return cid, header, None
-    null_rows = np.flatnonzero(~np.isfinite(depths))
+    null = _header(las, "NULL")
+    null = _number(null[1].value) if null is not None else None
+    # lasio keeps the NULL value in the depth curve; a depth of NULL is no depth.
+    null_rows = np.flatnonzero(
+        ~np.isfinite(depths) | (depths == null if null is not None else False)
+    )
     if null_rows.size:
         bad(
             row_where(int(null_rows[0]), index_item.mnemonic),
