@@ -104,10 +104,10 @@ COLUMNS: dict[str, tuple[str, str]] = {
     "shift_low_m": ("Shift P10 (m)", "m"),
     "shift_high_m": ("Shift P90 (m)", "m"),
     "rate_m_per_kyr": ("Rate (m/kyr)", "rate"),
-    "rate_low": ("Rate P10 (m/kyr)", "rate"),
-    "rate_high": ("Rate P90 (m/kyr)", "rate"),
     "rate_low_m_per_kyr": ("Rate P10 (m/kyr)", "rate"),
     "rate_high_m_per_kyr": ("Rate P90 (m/kyr)", "rate"),
+    "shift_bound": ("Shift is a bound", "bound"),
+    "net_shift_bound": ("Net shift is a bound", "bound"),
     "older_crossings": ("Crossings, older slice", "int"),
     "younger_crossings": ("Crossings, younger slice", "int"),
     # transects
@@ -235,6 +235,8 @@ def format_value(value, kind: str = "fit") -> str:
     if isinstance(value, (bool, np.bool_)):
         return "yes" if value else "no"
     if isinstance(value, str):
+        if kind == "bound":
+            return value.replace("_", " ") or _MISSING
         return value or _MISSING
     try:
         if pd.isna(value):
@@ -339,6 +341,7 @@ _RATE_COLUMNS = [
     "median_rate_m_per_kyr",
     "net_rate_m_per_kyr",
     "net_shift_m",
+    "net_shift_bound",
     "flooded_km2",
     "exposed_km2",
     "transects_used",
@@ -381,10 +384,14 @@ def _summary(result, specs, folder, units: _Units) -> str:
 {_figure(key, folder, "key") if key is not None else ""}
 <h2 id="rates">Shoreline shifts between slices</h2>
 <p class="muted">Consecutive slices, older first; rates in m/kyr (1 m/kyr = 1 mm/yr),
-positive landward (transgression). The median rate is over the transects; the net rate
-is the net area change divided by the mean {what} length and the time between the
-slices. The cores' sense is what their stacking says for the same interval. These are
-the values of the GeoPackage's <code>slice_pairs</code> table, rounded.</p>
+positive landward (transgression). The median rate is over the transects; the net shift
+is the net area change divided by the {what}'s mean extent along strike (the
+dip-equivalent shift), and the net rate that over the time between the slices. Where the
+{what} leaves the mapped area at a slice, a shift is only a bound ("at least": at least
+that far in its direction). P10 and P90: 10 % and 90 % of the probability below; a sense
+is "uncertain" where that range spans zero. The cores' sense is what their stacking says
+for the same interval. These are the values of the GeoPackage's <code>slice_pairs</code>
+table, rounded.</p>
 {note}{_table(pairs, _RATE_COLUMNS, "slice-pairs", units)}
 </section>
 """
@@ -400,10 +407,9 @@ _SHIFT_COLUMNS = [
     "shift_low_m",
     "shift_high_m",
     "rate_m_per_kyr",
-    "rate_low",
-    "rate_high",
     "rate_low_m_per_kyr",
     "rate_high_m_per_kyr",
+    "shift_bound",
     "sense",
 ]
 

@@ -54,7 +54,13 @@ __all__ = [
 MAX_ARROW_TRANSECTS = 8
 """Most transects that carry shift arrows on the migration map."""
 
-SENSE_LINESTYLES = {"transgression": "-", "regression": (0, (3.0, 1.6)), "stillstand": ":", "": ":"}
+SENSE_LINESTYLES = {
+    "transgression": "-",
+    "regression": (0, (3.0, 1.6)),
+    "stillstand": ":",
+    "uncertain": (0, (1.0, 1.5)),
+    "": ":",
+}
 """Arrow line style by sense (a second cue besides the colour)."""
 
 
@@ -248,7 +254,10 @@ def migration_map(result: BuildResult, ax: Axes | None = None) -> Axes:
             ("transgression", "transgression: landward shift, older to younger"),
             ("regression", "regression: seaward shift, older to younger"),
             ("stillstand", "stillstand"),
+            ("uncertain", "uncertain: P10-P90 spans zero"),
         ):
+            if sense not in SENSE_COLORS:
+                continue
             handles.append(
                 Line2D(
                     [],
@@ -256,7 +265,7 @@ def migration_map(result: BuildResult, ax: Axes | None = None) -> Axes:
                     color=SENSE_COLORS[sense],
                     linewidth=1.3,
                     linestyle=SENSE_LINESTYLES[sense],
-                    marker=">" if sense != "stillstand" else None,
+                    marker=">" if sense in ("transgression", "regression") else None,
                     markersize=4,
                     markevery=[-1],
                 )

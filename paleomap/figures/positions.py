@@ -218,7 +218,9 @@ def _draw(ax, result, transect, *, label_steps: bool):
     for r, xm, ym in steps:
         if not np.isfinite(r.rate_m_per_kyr):
             continue
-        full = rate_text(r.rate_m_per_kyr, r.rate_low, r.rate_high, unit=False, sep="\n")
+        full = rate_text(
+            r.rate_m_per_kyr, r.rate_low_m_per_kyr, r.rate_high_m_per_kyr, unit=False, sep="\n"
+        )
         if _place(ax, full, (xm, ym), kept, renderer, **style) is None:
             if (
                 _place(
