@@ -74,7 +74,12 @@ def stress_project(folder: Path) -> Path:
         "project": {"name": _long("Stress test basin")},
         "inputs": {"depth_unit": "ft"},
         "surfaces": surfaces,
-        "scheme": {"builtin": REMOVE, "name": _long("custom twelve-belt scheme"), "belts": belts},
+        "scheme": {
+            "builtin": REMOVE,
+            "track": REMOVE,
+            "name": _long("custom twelve-belt scheme"),
+            "belts": belts,
+        },
         "grid": {"cell_size": 1000.0, "margin": 1000.0},
         "mapping": {"deterministic": True},
     }
