@@ -1008,6 +1008,7 @@ def _run_info(project: Project, grid: Grid, maps) -> dict:
         "input_sha256": dict(project.checksums),
         "crs": project.crs.to_string(),
         "working_crs": project.working_crs.to_wkt(),
+        "output_crs": project.delivery_crs.to_string(),
         "age_unit": project.age_unit,
         "depth_unit": project.depth_unit,
         "scheme": project.scheme.name,

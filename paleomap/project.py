@@ -52,6 +52,7 @@ __all__ = [
     "age_name",
     "parse_config",
     "working_crs_for",
+    "delivery_crs_for",
 ]
 
 AGE_UNITS = {"ka": 1.0, "Ma": 1000.0}
@@ -231,6 +232,14 @@ class Project:
     checksums: dict = field(default_factory=dict)
     """sha256 of every input file, keyed by its path relative to the project file."""
     warnings: tuple[Problem, ...] = ()
+    output_crs: pyproj.CRS | None = None
+    """CRS the layers and rasters are delivered in (see :func:`delivery_crs_for`); None
+    for the default, the project CRS."""
+
+    @property
+    def delivery_crs(self) -> pyproj.CRS:
+        """The CRS of the deliverables: ``output_crs``, else the project CRS."""
+        return self.output_crs if self.output_crs is not None else delivery_crs_for(self.crs)
 
     @property
     def root(self) -> Path:
@@ -256,6 +265,7 @@ MAPPING_MODELS = ("auto", "exponential", "spherical", "gaussian", "matern32")
 
 _TABLES = {
     "project": ("name", "crs"),
+    "output": ("crs",),
     "inputs": (*INPUT_KEYS, "control_points"),
     "time": ("age_unit",),
     "surfaces": ("name", "age", "age_sd", "erosional"),
@@ -337,6 +347,7 @@ class ProjectConfig:
     lines: dict = field(default_factory=dict)
     belts: tuple[Belt, ...] | None = None
     sources: InputSources = field(default_factory=InputSources)
+    output_crs: pyproj.CRS | None = None
 
 
 def parse_config(
@@ -471,6 +482,31 @@ def working_crs_for(
     )
 
 
+def delivery_crs_for(crs: pyproj.CRS, output: pyproj.CRS | None = None) -> pyproj.CRS:
+    """The CRS a project's layers and rasters are delivered in.
+
+    ``output`` (``[output] crs``) if given, else the project CRS; its horizontal part,
+    and, where pyproj identifies it with a registered CRS (confidence 90 % or more), that
+    registered CRS, so the deliverables carry an authority code (e.g. EPSG) that every GIS
+    matches with the user's other data. A geographic project is mapped in a local working
+    CRS (:func:`working_crs_for`) but delivered in its own geographic CRS.
+
+    Examples
+    --------
+    >>> delivery_crs_for(pyproj.CRS("EPSG:4326")).to_epsg()
+    4326
+    >>> delivery_crs_for(pyproj.CRS("+proj=utm +zone=31 +datum=WGS84 +units=m")).to_epsg()
+    32631
+    >>> delivery_crs_for(pyproj.CRS("EPSG:4326"), pyproj.CRS("EPSG:3035")).to_epsg()
+    3035
+    """
+    chosen = _horizontal(output if output is not None else crs)
+    authority = chosen.to_authority(min_confidence=90)
+    if authority is None:
+        return chosen
+    return pyproj.CRS.from_authority(*authority)
+
+
 def _aeqd_conversion(lat0: float, lon0: float) -> dict:
     def param(name, code, value, unit):
         return {
@@ -501,7 +537,7 @@ def _horizontal(crs: pyproj.CRS) -> pyproj.CRS:
     return crs
 
 
-def _crs_problem(crs: pyproj.CRS) -> tuple[str, str] | None:
+def _crs_problem(crs: pyproj.CRS, projected_in_metres: bool = True) -> tuple[str, str] | None:
     """(message, hint) when paleomap cannot work in ``crs``, else None."""
     horizontal = _horizontal(crs)
     if horizontal.is_geographic:
@@ -511,6 +547,10 @@ def _crs_problem(crs: pyproj.CRS) -> tuple[str, str] | None:
             f"is a {crs.type_name.removesuffix(' CRS')} CRS, neither geographic nor projected",
             "give a projected CRS in metres or a geographic CRS",
         )
+    if not projected_in_metres:
+        # Deliverables may be in any projected unit: lengths and areas are measured in
+        # the working CRS before the layers are transformed.
+        return None
     units = {a.unit_name for a in horizontal.axis_info}
     factors = {a.unit_conversion_factor for a in horizontal.axis_info}
     if factors != {1.0}:
@@ -667,6 +707,9 @@ class _ConfigReader:
         project = self.table("project") or {}
         out["name"] = self.text(project, ("project",), "name") if "project" in self.data else None
         out["crs"] = self.read_crs(project) if "project" in self.data else None
+        output = self.table("output") or {}
+        if "crs" in output:
+            out["output_crs"] = self.read_crs(output, ("output",), projected_in_metres=False)
 
         inputs = self.table("inputs") or {}
         lines = {}
@@ -704,17 +747,19 @@ class _ConfigReader:
         out["reading"] = self.read_reading()
         return ProjectConfig(self.file, lines=lines, **out)
 
-    def read_crs(self, project: dict) -> pyproj.CRS | None:
+    def read_crs(
+        self, project: dict, where: tuple = ("project",), projected_in_metres: bool = True
+    ) -> pyproj.CRS | None:
         value = project.get("crs")
         if isinstance(value, int) and not isinstance(value, bool) and value > 0:
             project = {**project, "crs": f"EPSG:{value}"}  # a bare EPSG code
-        text = self.text(project, ("project",), "crs")
+        text = self.text(project, where, "crs")
         if text is None:
             if "crs" not in project:
                 # Replace the generic message with one that says why.
                 self.log.errors.pop()
                 self.err(
-                    ("project", "crs"),
+                    (*where, "crs"),
                     None,
                     "is missing: paleomap never assumes a CRS",
                     'give any CRS pyproj reads, e.g. crs = "EPSG:32631" or "EPSG:4326"',
@@ -724,15 +769,15 @@ class _ConfigReader:
             crs = pyproj.CRS.from_user_input(text)
         except pyproj.exceptions.CRSError:
             self.err(
-                ("project", "crs"),
+                (*where, "crs"),
                 text,
                 "is not a CRS pyproj knows",
                 'give an EPSG code such as "EPSG:32631", a WKT or a PROJ string',
             )
             return None
-        problem = _crs_problem(crs)
+        problem = _crs_problem(crs, projected_in_metres)
         if problem is not None:
-            self.err(("project", "crs"), text, *problem)
+            self.err((*where, "crs"), text, *problem)
             return None
         return crs
 

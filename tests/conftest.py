@@ -243,3 +243,56 @@ def write_project(
 def project_path(tmp_path: Path) -> Path:
     """The default valid project, written to a temporary folder."""
     return write_project(tmp_path)
+
+
+# Helper scripts run by tests with another interpreter (PyQGIS lives in the system
+# Python), not modules of the suite.
+collect_ignore = ["qgis_probe.py"]
+
+
+@pytest.fixture(scope="session")
+def demo_build(tmp_path_factory):
+    """The demo region built once for the session (no figures, no report).
+
+    Returns ``(project, result, build folder)``.
+    """
+    from paleomap.io.readers import load_project
+    from paleomap.pipeline import compute, write_build
+
+    project = load_project(Path(__file__).parent.parent / "demo_region" / "project.toml")
+    result = compute(project)
+    out = tmp_path_factory.mktemp("demo") / "build"
+    write_build(result, out, figures=False, report=False)
+    return project, result, out
+
+
+@pytest.fixture(scope="session")
+def geographic_build(tmp_path_factory):
+    """The demo region with its cores in longitude and latitude (EPSG:4326), built once.
+
+    Returns ``(project, result, build folder)``.
+    """
+    import shutil
+
+    import pandas as pd
+    import pyproj
+
+    from paleomap.io.readers import load_project
+    from paleomap.pipeline import compute, write_build
+
+    demo = Path(__file__).parent.parent / "demo_region"
+    folder = tmp_path_factory.mktemp("geographic")
+    cores = pd.read_csv(demo / "cores.csv")
+    to_lonlat = pyproj.Transformer.from_crs(32631, 4326, always_xy=True)
+    cores["x"], cores["y"] = to_lonlat.transform(cores["x"].to_numpy(), cores["y"].to_numpy())
+    cores.to_csv(folder / "cores.csv", index=False, float_format="%.8f")
+    for name in ("intervals.csv", "picks.csv"):
+        shutil.copy(demo / name, folder / name)
+    text = (demo / "project.toml").read_text(encoding="utf-8")
+    text = text.replace('crs = "EPSG:32631"', 'crs = "EPSG:4326"')
+    (folder / "project.toml").write_text(text, encoding="utf-8")
+    project = load_project(folder / "project.toml")
+    result = compute(project)
+    out = folder / "build"
+    write_build(result, out, figures=False, report=False)
+    return project, result, out

@@ -26,12 +26,16 @@ from shapely.geometry import LineString, MultiPolygon, Point, Polygon
 
 from paleomap.io import geopackage
 from paleomap.io.geopackage import (
+    GEOMETRY_COLUMN,
     GPKG_APPLICATION_ID,
     GPKG_USER_VERSIONS,
     METADATA_STANDARD_URI,
+    STYLE_TABLE,
     write_layers,
 )
-from paleomap.io.styles import SLD_MIME_TYPE, SLD_NS, layer_styles, sld_layer_name
+from paleomap.io.qml import to_qml
+from paleomap.io.sld import sld_layer_name, to_sld
+from paleomap.io.styles import layer_styles
 
 CRS = "EPSG:32631"
 BELTS = [("sand", "Sand", "#d9b56e"), ("mud", "Mud", "#1d4f7c")]
@@ -195,7 +199,7 @@ def test_contents_and_geometry_columns(db):
         r[0]: (r[1], r[2])
         for r in db.execute("SELECT table_name, data_type, srs_id FROM gpkg_contents")
     }
-    assert set(contents) == set(FEATURE_LAYERS) | set(ATTRIBUTE_LAYERS)
+    assert set(contents) == set(FEATURE_LAYERS) | set(ATTRIBUTE_LAYERS) | {STYLE_TABLE}
     geom = db.execute(
         "SELECT table_name, column_name, geometry_type_name, srs_id FROM gpkg_geometry_columns"
     ).fetchall()
@@ -237,38 +241,66 @@ def test_column_types_in_sqlite(db):
 # ------------------------------------------------------------------ styles
 
 
-def test_styles_are_stored_through_the_metadata_extension(db, written):
+def test_styles_are_stored_in_layer_styles(db, written):
+    # The table QGIS reads a layer's default style from (columns as in REFERENCES.md,
+    # "Styling layers in a GeoPackage for a desktop GIS").
     _, styles = written
-    ext = db.execute(
-        "SELECT table_name, column_name, scope FROM gpkg_extensions "
-        "WHERE extension_name = 'gpkg_metadata'"
-    ).fetchall()
-    assert sorted(ext) == [
-        ("gpkg_metadata", None, "read-write"),
-        ("gpkg_metadata_reference", None, "read-write"),
+    columns = [r[1] for r in db.execute(f"PRAGMA table_info({STYLE_TABLE})")]
+    assert columns[1:] == [
+        "f_table_catalog",
+        "f_table_schema",
+        "f_table_name",
+        "f_geometry_column",
+        "styleName",
+        "styleQML",
+        "styleSLD",
+        "useAsDefault",
+        "description",
+        "owner",
+        "ui",
+        "update_time",
     ]
     rows = db.execute(
-        "SELECT r.reference_scope, r.table_name, r.column_name, r.row_id_value, "
-        "m.md_standard_uri, m.mime_type, m.metadata "
-        "FROM gpkg_metadata m JOIN gpkg_metadata_reference r ON r.md_file_id = m.id "
-        "WHERE m.md_scope = 'style'"
+        f"SELECT f_table_catalog, f_table_schema, f_table_name, f_geometry_column, styleQML, "
+        f"styleSLD, useAsDefault FROM {STYLE_TABLE}"
     ).fetchall()
-    assert sorted(r[1] for r in rows) == sorted(styles)
-    for scope, table, column, row_id, uri, mime, sld in rows:
-        assert (scope, column, row_id) == ("table", None, None)
-        assert (uri, mime) == (SLD_NS, SLD_MIME_TYPE)
-        assert sld == styles[table]
+    assert sorted(r[2] for r in rows) == sorted(styles)
+    geometry_columns = dict(
+        db.execute("SELECT table_name, column_name FROM gpkg_geometry_columns").fetchall()
+    )
+    for catalog, schema, table, geom, qml, sld, default in rows:
+        assert (catalog, schema, default) == ("", "", 1)
+        assert geom == geometry_columns[table] == GEOMETRY_COLUMN
+        assert qml == to_qml(styles[table])
+        assert sld == to_sld(styles[table])
         assert sld_layer_name(sld) == table
+        ET.fromstring(qml.split("\n", 1)[1].encode("utf-8"))
+    (data_type,) = db.execute(
+        f"SELECT data_type FROM gpkg_contents WHERE table_name = '{STYLE_TABLE}'"
+    ).fetchone()
+    assert data_type == "attributes"
 
 
-def test_sld_files_beside_the_geopackage(written):
+def test_only_valid_metadata_scopes(db):
+    # md_scope takes ISO 19115 MD_ScopeCode values (REFERENCES.md); 'style' is not one.
+    scopes = {r[0] for r in db.execute("SELECT md_scope FROM gpkg_metadata")}
+    assert scopes == {"dataset"}
+
+
+def test_geopackage_version_1_2(db):
+    # user_version 10200 = GeoPackage 1.2.0 (OGC 12-128r19, requirement 2).
+    assert db.execute("PRAGMA user_version").fetchone()[0] == 10200
+
+
+def test_style_files_beside_the_geopackage(written):
     path, styles = written
     folder = path.parent / "styles"
-    assert sorted(p.name for p in folder.iterdir()) == sorted(f"{k}.sld" for k in styles)
-    for name, sld in styles.items():
-        text = (folder / f"{name}.sld").read_text(encoding="utf-8")
-        assert text == sld
-        ET.fromstring(text.encode("utf-8"))
+    assert sorted(p.name for p in folder.iterdir()) == sorted(
+        f"{k}.{ext}" for k in styles for ext in ("qml", "sld")
+    )
+    for name, style in styles.items():
+        assert (folder / f"{name}.sld").read_text(encoding="utf-8") == to_sld(style)
+        assert (folder / f"{name}.qml").read_text(encoding="utf-8") == to_qml(style)
     # Nothing else is written beside the GeoPackage.
     assert sorted(p.name for p in path.parent.iterdir()) == ["paleomap.gpkg", "styles"]
 
@@ -293,7 +325,8 @@ def test_dataset_metadata(db, written):
 
 
 def test_layer_names_in_order(written):
-    assert [str(n) for n, _ in pyogrio.list_layers(written[0])] == FEATURE_LAYERS + ATTRIBUTE_LAYERS
+    names = [str(n) for n, _ in pyogrio.list_layers(written[0])]
+    assert names == FEATURE_LAYERS + ATTRIBUTE_LAYERS + [STYLE_TABLE]
 
 
 @pytest.mark.parametrize("name", FEATURE_LAYERS)
@@ -441,6 +474,9 @@ def test_index_and_odd_columns(tmp_path):
 # ------------------------------------------------------------------ errors
 
 
+_STYLE = layer_styles(BELTS)["cores"]
+
+
 @pytest.mark.parametrize(
     ("layers", "kwargs", "match"),
     [
@@ -451,9 +487,10 @@ def test_index_and_odd_columns(tmp_path):
         ({"pts": _one([Point(0, 0)], fid=[1])}, {}, "'fid'"),
         ({"t": pd.DataFrame({"a": [1], "A": [2]})}, {}, "duplicate column"),
         ({"t": [1, 2]}, {}, "GeoDataFrame or DataFrame"),
-        ({"pts": _one([Point(0, 0)])}, {"styles": {"other": "<x/>"}}, "not being written"),
-        ({"t": pd.DataFrame({"a": [1]})}, {"styles": {"t": "<x/>"}}, "without geometry"),
-        ({"pts": _one([Point(0, 0)])}, {"styles": {"pts": "<oops"}}, "well-formed"),
+        ({"pts": _one([Point(0, 0)])}, {"styles": {"other": _STYLE}}, "not being written"),
+        ({"t": pd.DataFrame({"a": [1]})}, {"styles": {"t": _STYLE}}, "without geometry"),
+        ({"pts": _one([Point(0, 0)])}, {"styles": {"pts": "<x/>"}}, "must be a LayerStyle"),
+        ({"layer_styles": pd.DataFrame({"a": [1]})}, {}, "reserved for the layer styles"),
         ({"pts": _one([Point(0, 0)])}, {"geometry_types": {"pts": "Polygon"}}, "declared Polygon"),
         ({"pts": _one([Point(0, 0)])}, {"geometry_types": {"pts": "Blob"}}, "not one of"),
         ({"pts": _one([Point(0, 0)])}, {"geometry_types": {"x": "Point"}}, "not being written"),
@@ -475,7 +512,8 @@ def test_index_and_odd_columns(tmp_path):
         "not-a-frame",
         "style-unknown-layer",
         "style-attribute-table",
-        "style-not-xml",
+        "style-not-description",
+        "style-table-name",
         "type-conflict",
         "type-unknown",
         "type-unknown-layer",

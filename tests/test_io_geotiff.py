@@ -15,19 +15,26 @@ import rasterio
 from rasterio.transform import Affine
 
 from paleomap.figures.palette import hex_to_rgb
-from paleomap.io.geotiff import CLASS_TAG_PREFIX, write_class_raster, write_float_raster
+from paleomap.io.geotiff import (
+    CLASS_TAG_PREFIX,
+    NODATA_NAME,
+    reproject_grid,
+    write_class_raster,
+    write_float_raster,
+)
 
 CRS = "EPSG:32631"
 TRANSFORM = Affine(250.0, 0.0, 500000.0, 0.0, -250.0, 6010000.0)
 COLORS = ["#8f6234", "#d9b56e", "#f0dd93", "#6fb7b0", "#1d4f7c"]
 NAMES = ["gravel", "coarse_sand", "fine_sand", "silt", "clay"]
+NODATA = len(NAMES)  # the default: the first value after the classes
 
 
 def _classes(rows=40, cols=70) -> np.ndarray:
     # Ranks grow basinward (east), nodata in a corner outside the mapped area.
     ranks = np.repeat((np.arange(cols) * len(NAMES) // cols)[None, :], rows, axis=0)
     ranks = ranks.astype(np.uint8)
-    ranks[:5, :8] = 255
+    ranks[:5, :8] = NODATA
     return ranks
 
 
@@ -48,7 +55,7 @@ def test_class_raster_reads_back(class_tif):
         assert (src.height, src.width) == (40, 70)
         assert pyproj.CRS.from_user_input(src.crs.to_wkt()).equals(pyproj.CRS(CRS))
         assert src.transform == TRANSFORM
-        assert src.nodata == 255
+        assert src.nodata == NODATA
         assert src.descriptions == ("most likely belt",)
         np.testing.assert_array_equal(src.read(1), _classes())
         assert src.read_masks(1)[:5, :8].max() == 0
@@ -58,11 +65,27 @@ def test_class_raster_reads_back(class_tif):
 
 
 def test_class_raster_colour_table(class_tif):
+    # Exactly the classes and nodata (transparent), as GDAL reports the table.
     with rasterio.open(class_tif) as src:
         cmap = src.colormap(1)
         assert src.colorinterp[0] == rasterio.enums.ColorInterp.palette
+    assert sorted(cmap) == list(range(len(NAMES) + 1))
+    for i, color in enumerate(COLORS):
+        assert cmap[i] == (*hex_to_rgb(color), 255)
+    assert cmap[NODATA][3] == 0
+
+
+def test_lone_tif_keeps_colours_and_names(class_tif, tmp_path):
+    # Without its .aux.xml the TIFF still has its palette and the class names as band
+    # metadata (the TIFF palette itself always has 256 entries for 8 bits).
+    lone = tmp_path / "lone.tif"
+    lone.write_bytes(class_tif.read_bytes())
+    with rasterio.open(lone) as src:
+        cmap = src.colormap(1)
+        tags = src.tags(1)
     for i, color in enumerate(COLORS):
         assert cmap[i][:3] == hex_to_rgb(color)
+    assert [tags[f"{CLASS_TAG_PREFIX}{i}"] for i in range(len(NAMES))] == NAMES
 
 
 def test_class_raster_names_as_tags_and_categories(class_tif):
@@ -74,7 +97,8 @@ def test_class_raster_names_as_tags_and_categories(class_tif):
     assert root.tag == "PAMDataset"
     band = root.find("PAMRasterBand")
     assert band.get("band") == "1"
-    assert [c.text for c in band.find("CategoryNames")] == NAMES
+    assert [c.text for c in band.find("CategoryNames")] == [*NAMES, NODATA_NAME]
+    assert len(band.find("ColorTable")) == len(NAMES) + 1
 
 
 def _gdal_category_names(path) -> list[str] | None:
@@ -111,7 +135,7 @@ def test_gdal_reports_the_category_names(class_tif):
     names = _gdal_category_names(class_tif)
     if names is None:
         pytest.skip("rasterio was not installed from a wheel with a bundled libgdal")
-    assert names == NAMES
+    assert names == [*NAMES, NODATA_NAME]
 
 
 def test_class_raster_is_tiled_and_compressed(class_tif):
@@ -128,6 +152,33 @@ def test_large_raster_uses_256_tiles(tmp_path):
     )
     with rasterio.open(path) as src:
         assert src.block_shapes == [(256, 256)]
+        assert src.overviews(1) == []
+
+
+def test_big_grids_get_overviews(tmp_path):
+    ranks = np.zeros((300, 1100), np.uint8)
+    path = write_class_raster(tmp_path / "big.tif", ranks, TRANSFORM, CRS, COLORS, NAMES)
+    with rasterio.open(path) as src:
+        assert src.overviews(1) == [2, 4]
+        assert src.tags(ns="rio_overview")["resampling"] == "mode"
+    path = write_float_raster(tmp_path / "p.tif", np.zeros((1100, 300)), TRANSFORM, CRS, ["p"])
+    with rasterio.open(path) as src:
+        assert src.overviews(1) == [2, 4]
+        assert src.tags(ns="rio_overview")["resampling"] == "average"
+
+
+def test_reproject_grid_to_geographic():
+    ranks = _classes()
+    out, transform = reproject_grid(
+        ranks, TRANSFORM, CRS, "EPSG:4326", categorical=True, nodata=NODATA
+    )
+    assert out.dtype == np.uint8
+    assert set(np.unique(out)) <= set(range(len(NAMES) + 1))
+    # Every class survives nearest-cell resampling at about the same resolution.
+    assert set(range(len(NAMES))) <= set(np.unique(out))
+    west, north = transform @ (0, 0)
+    lon, lat = pyproj.Transformer.from_crs(CRS, 4326, always_xy=True).transform(500000, 6010000)
+    assert abs(west - lon) < 0.01 and abs(north - lat) < 0.01
 
 
 def test_float_stack_reads_back(tmp_path):
@@ -217,6 +268,7 @@ def test_failed_write_keeps_old_raster(tmp_path, monkeypatch):
         ({"colors": COLORS[:2]}, "colours for"),
         ({"colors": ["red"] * 5}, "#rrggbb"),
         ({"nodata": 3}, "also a class index"),
+        ({"array_uint8": np.full((3, 4), 255, np.uint8)}, "neither class indices"),
         ({"nodata": 300}, "0-255"),
         ({"crs": None}, "needs a CRS"),
         ({"transform": (1, 2, 3)}, "6 coefficients"),
@@ -230,6 +282,7 @@ def test_failed_write_keeps_old_raster(tmp_path, monkeypatch):
         "colour-count",
         "colour-format",
         "nodata-is-class",
+        "old-nodata",
         "nodata-range",
         "no-crs",
         "bad-transform",

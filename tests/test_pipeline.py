@@ -19,7 +19,7 @@ import shapely
 
 from paleomap.belts import walther_contacts
 from paleomap.io.readers import load_project
-from paleomap.io.writers import GPKG_NAME, raster_names
+from paleomap.io.writers import GPKG_NAME, probability_name, raster_names
 from paleomap.pipeline import compute, write_build
 
 DEMO = "demo_region/project.toml"
@@ -39,12 +39,8 @@ TABLES = ("slice_pairs", "slice_quality", "run_info", "shoreline_positions")
 
 
 @pytest.fixture(scope="module")
-def demo(tmp_path_factory):
-    project = load_project(DEMO)
-    result = compute(project)
-    out = tmp_path_factory.mktemp("demo") / "build"
-    write_build(result, out, figures=False, report=False)
-    return project, result, out
+def demo(demo_build):
+    return demo_build
 
 
 def test_geopackage_has_every_layer_with_the_working_crs(demo):
@@ -153,30 +149,39 @@ def test_belt_areas_partition_the_mapped_area(demo):
 def test_rasters_read_back_with_crs_transform_nodata_and_colours(demo):
     project, result, out = demo
     scheme = project.scheme
+    k = scheme.n_belts
     for m in result.slice_maps:
         files = raster_names(m.slice.name)
         with rasterio.open(out / "rasters" / files["belt"]) as src:
             assert src.dtypes[0] == "uint8"
-            assert src.nodata == 255
-            assert src.crs is not None
+            assert src.nodata == k
+            assert src.crs.to_epsg() == 32631
             assert src.transform == result.grid.transform
             cmap = src.colormap(1)
-            for k, color in enumerate(scheme.colors):
-                assert "#{:02x}{:02x}{:02x}".format(*cmap[k][:3]) == color
+            assert sorted(cmap) == list(range(k + 1))
+            for i, color in enumerate(scheme.colors):
+                assert "#{:02x}{:02x}{:02x}".format(*cmap[i][:3]) == color
             data = src.read(1)
-            assert np.all(data[~result.grid.mask] == 255)
-            assert set(np.unique(data[result.grid.mask])) <= set(range(scheme.n_belts))
-        with rasterio.open(out / "rasters" / files["probabilities"]) as src:
-            assert src.count == scheme.n_belts
-            assert src.dtypes[0] == "float32"
-            assert list(src.descriptions) == [f"P({b})" for b in scheme.ids]
-            p = src.read()
-            inside = result.grid.mask
-            assert np.allclose(p[:, inside].sum(axis=0), 1.0, atol=1e-4)
-            assert np.all(np.isnan(p[:, ~inside]))
+            assert np.all(data[~result.grid.mask] == k)
+            assert set(np.unique(data[result.grid.mask])) <= set(range(k))
+        assert (out / "rasters" / files["belt"]).with_suffix(".qml").exists()
+        inside = result.grid.mask
+        total = np.zeros(result.grid.shape)
+        for belt_id in scheme.ids:
+            path = out / "rasters" / probability_name(m.slice.name, belt_id)
+            with rasterio.open(path) as src:
+                assert src.count == 1
+                assert src.dtypes[0] == "float32"
+                assert src.descriptions == (f"P({belt_id})",)
+                p = src.read(1)
+            assert np.all(np.isnan(p[~inside]))
+            total[inside] += p[inside]
+            assert path.with_suffix(".qml").exists()
+        assert np.allclose(total[inside], 1.0, atol=1e-4)
         with rasterio.open(out / "rasters" / files["distal"]) as src:
             d = src.read(1)
             assert np.nanmin(d) >= 0 and np.nanmax(d) <= 1
+        assert (out / "rasters" / files["distal"]).with_suffix(".qml").exists()
 
 
 def test_rates_csv_equals_the_shift_layer(demo):
@@ -324,8 +329,11 @@ def test_float32_maps_derive_probabilities_from_the_latent(tmp_path, monkeypatch
     out = tmp_path / "build"
     write_build(result, out, figures=False, report=False)
     m = result.slice_maps[0]
-    with rasterio.open(out / "rasters" / raster_names(m.slice.name)["probabilities"]) as src:
-        written = src.read()
+    written = []
+    for belt_id in result.project.scheme.ids:
+        with rasterio.open(out / "rasters" / probability_name(m.slice.name, belt_id)) as src:
+            written.append(src.read(1))
+    written = np.stack(written)
     inside = g.mask
     np.testing.assert_array_equal(written[:, inside], m.probabilities[:, inside])
 

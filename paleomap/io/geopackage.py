@@ -6,15 +6,23 @@ their CRS, plain DataFrames become attribute tables (``data_type = 'attributes'`
 in ``gpkg_contents``). The file is written to a temporary path beside the target
 and moved into place only when complete (:func:`paleomap.io.atomic.atomic_output_path`).
 
-Styles and metadata. The core standard defines no style table; its metadata extension
-(``gpkg_metadata`` and ``gpkg_metadata_reference``, registered in
-``gpkg_extensions``) allows ``md_scope = 'style'``. Each layer's SLD document is
-stored there: one ``gpkg_metadata`` row (md_scope ``'style'``, md_standard_uri
-``http://www.opengis.net/sld``, mime_type ``application/vnd.ogc.sld+xml``) and one
-``gpkg_metadata_reference`` row with reference_scope ``'table'`` naming the layer.
-Each SLD is also written beside the GeoPackage as ``styles/<layer>.sld``, since
-many desktop GIS load SLD files directly. Dataset metadata is stored the same
-way, as one JSON document referenced by the whole GeoPackage.
+Version. The file is a GeoPackage 1.2 (``PRAGMA user_version`` 10200, GDAL creation
+option ``VERSION=1.2``): the version the widest range of installed GIS reads (GDAL 3.6,
+which Debian 12's QGIS 3.22 runs on, warns that 1.4 is "only partially supported"), and
+paleomap uses no feature added later.
+
+Styles. The core standard defines no style table; desktop GIS read a layer's default
+style from a table ``layer_styles`` (columns f_table_catalog, f_table_schema,
+f_table_name, f_geometry_column, styleName, styleQML, styleSLD, useAsDefault,
+description, owner, ui, update_time), QGIS taking the row marked useAsDefault and
+needing its QML. Each styled layer gets one such row, with the QML and SLD written from
+the same :class:`~paleomap.io.styles.LayerStyle`, and the same two documents beside the
+GeoPackage as ``styles/<layer>.qml`` and ``styles/<layer>.sld``.
+
+Metadata. Dataset metadata (version, inputs, run time) is one JSON document in the
+metadata extension (``gpkg_metadata`` and ``gpkg_metadata_reference``, registered in
+``gpkg_extensions``), md_scope ``'dataset'`` (an ISO 19115 MD_ScopeCode value), referenced
+by the whole GeoPackage.
 
 Column types. Integers are written as INTEGER, floats as REAL, text as TEXT,
 booleans as GDAL's boolean subtype (SQLite ``BOOLEAN``, stored 0/1), date-times as
@@ -55,13 +63,18 @@ import numpy as np
 import pandas as pd
 
 from .atomic import atomic_output_path, atomic_write_text
-from .styles import SLD_MIME_TYPE, SLD_NS, sld_layer_name
+from .qml import to_qml
+from .sld import to_sld
+from .styles import LayerStyle
 
 __all__ = [
+    "GEOMETRY_COLUMN",
     "GPKG_APPLICATION_ID",
     "GPKG_USER_VERSIONS",
+    "GPKG_VERSION",
     "METADATA_STANDARD_URI",
     "STYLE_FOLDER",
+    "STYLE_TABLE",
     "write_layers",
 ]
 
@@ -73,8 +86,17 @@ GPKG_APPLICATION_ID = 0x47504B47
 GPKG_USER_VERSIONS = (10200, 10300, 10400)
 """``PRAGMA user_version`` of GeoPackage 1.2, 1.3 and 1.4 (OGC 12-128r19, requirement 2)."""
 
+GPKG_VERSION = "1.2"
+"""GeoPackage version written (GDAL creation option ``VERSION``)."""
+
 STYLE_FOLDER = "styles"
-"""Folder beside the GeoPackage that receives one ``<layer>.sld`` per styled layer."""
+"""Folder beside the GeoPackage that receives ``<layer>.qml`` and ``<layer>.sld``."""
+
+STYLE_TABLE = "layer_styles"
+"""Table of default layer styles that desktop GIS read."""
+
+GEOMETRY_COLUMN = "geom"
+"""Name of the geometry column of every feature table."""
 
 METADATA_STANDARD_URI = "urn:x-paleomap:build-metadata:1"
 """md_standard_uri of the JSON dataset metadata that :func:`write_layers` stores."""
@@ -132,7 +154,7 @@ def write_layers(
     path: str | os.PathLike,
     layers: Mapping[str, pd.DataFrame],
     *,
-    styles: Mapping[str, str] | None = None,
+    styles: Mapping[str, LayerStyle] | None = None,
     metadata: Mapping[str, object] | None = None,
     geometry_types: Mapping[str, str] | None = None,
 ) -> Path:
@@ -147,10 +169,10 @@ def write_layers(
         Layer name to data, in the order to write. A GeoDataFrame (which must have a
         CRS) becomes a feature table, a plain DataFrame an attribute table. The
         index is not written.
-    styles : mapping of str to str, optional
-        Layer name to an SLD document (see :mod:`paleomap.io.styles`), for feature
-        layers. Stored in the GeoPackage and written to ``styles/<layer>.sld``
-        beside it.
+    styles : mapping of str to LayerStyle, optional
+        Layer name to its default style (see :mod:`paleomap.io.styles`), for feature
+        layers. Stored as QML and SLD in the ``layer_styles`` table and written to
+        ``styles/<layer>.qml`` and ``styles/<layer>.sld`` beside the GeoPackage.
     metadata : mapping of str to object, optional
         Dataset metadata (e.g. version, run time), stored as one JSON object in
         ``gpkg_metadata`` (md_scope ``'dataset'``, mime_type ``application/json``,
@@ -170,7 +192,7 @@ def write_layers(
     ------
     ValueError
         A bad layer name, a layer without CRS, geometries that do not fit the declared
-        type, or a style that is not an SLD for that layer.
+        type, or a style for another layer or for a table without geometry.
 
     Examples
     --------
@@ -197,9 +219,13 @@ def write_layers(
             raise ValueError(f"geometry_types names layer {name!r}, which is not being written")
     metadata_json = _metadata_json(metadata)
 
+    documents = {name: (to_qml(style), to_sld(style)) for name, style in styles.items()}
     with atomic_output_path(path) as tmp:
-        for name, (frame, geom_type) in prepared.items():
+        for i, (name, (frame, geom_type)) in enumerate(prepared.items()):
             _log.info("writing layer %s (%d rows) to %s", name, len(frame), path.name)
+            options = {"IDENTIFIER": name}
+            if geom_type is not None:
+                options["GEOMETRY_NAME"] = GEOMETRY_COLUMN
             pyogrio.write_dataframe(
                 frame,
                 tmp,
@@ -208,11 +234,22 @@ def write_layers(
                 # pyogrio calls the generic type "Unknown"; GDAL declares it GEOMETRY.
                 geometry_type="Unknown" if geom_type == "Geometry" else geom_type,
                 promote_to_multi=False,
-                layer_options={"IDENTIFIER": name},
+                layer_options=options,
+                # The version is chosen when the file is created, by its first layer.
+                dataset_options={"VERSION": GPKG_VERSION} if i == 0 else None,
             )
-        if styles or metadata_json is not None:
-            _store_metadata(tmp, styles, metadata_json)
-    for name, sld in styles.items():
+        if documents:
+            pyogrio.write_dataframe(
+                _style_rows(styles, documents),
+                tmp,
+                layer=STYLE_TABLE,
+                driver="GPKG",
+                layer_options={"IDENTIFIER": STYLE_TABLE, "DESCRIPTION": "default layer styles"},
+            )
+        if metadata_json is not None:
+            _store_metadata(tmp, metadata_json)
+    for name, (qml, sld) in documents.items():
+        atomic_write_text(path.parent / STYLE_FOLDER / f"{name}.qml", qml)
         atomic_write_text(path.parent / STYLE_FOLDER / f"{name}.sld", sld)
     _log.info("wrote %s with %d layers", path, len(prepared))
     return path
@@ -413,21 +450,50 @@ def _json_metadata_default(value):
 # ------------------------------------------------------------------ styles
 
 
-def _check_styles(styles: dict[str, str], prepared: dict) -> None:
-    for name, sld in styles.items():
+def _check_styles(styles: dict[str, LayerStyle], prepared: dict) -> None:
+    if STYLE_TABLE in prepared:
+        raise ValueError(f"layer name {STYLE_TABLE!r} is reserved for the layer styles")
+    for name, style in styles.items():
         if name not in prepared:
             raise ValueError(f"a style is given for layer {name!r}, which is not being written")
         if prepared[name][1] is None:
             raise ValueError(f"a style is given for {name!r}, a table without geometry")
-        if not isinstance(sld, str):
-            raise ValueError(f"the style for layer {name!r} must be SLD text, got {type(sld)}")
-        styled = sld_layer_name(sld)
-        if styled != name:
-            raise ValueError(f"the style given for layer {name!r} styles layer {styled!r}")
+        if not isinstance(style, LayerStyle):
+            raise ValueError(
+                f"the style for layer {name!r} must be a LayerStyle, got {type(style).__name__}"
+            )
+        if style.layer != name:
+            raise ValueError(f"the style given for layer {name!r} styles layer {style.layer!r}")
 
 
-def _store_metadata(gpkg: Path, styles: dict[str, str], metadata_json: str | None) -> None:
-    """Store the SLDs and the dataset metadata through the GeoPackage metadata extension."""
+def _style_rows(styles: dict[str, LayerStyle], documents: dict[str, tuple[str, str]]):
+    now = pd.Timestamp.now(tz="UTC").floor("ms")
+    rows = [
+        {
+            # QGIS matches a GeoPackage layer with empty catalog and schema.
+            "f_table_catalog": "",
+            "f_table_schema": "",
+            "f_table_name": name,
+            "f_geometry_column": GEOMETRY_COLUMN,
+            "styleName": name,
+            "styleQML": qml,
+            "styleSLD": sld,
+            "useAsDefault": True,
+            "description": styles[name].title,
+            "owner": "paleomap",
+            "ui": None,
+            "update_time": now,
+        }
+        for name, (qml, sld) in documents.items()
+    ]
+    frame = pd.DataFrame(rows)
+    frame["useAsDefault"] = frame["useAsDefault"].astype("boolean")
+    frame["ui"] = frame["ui"].astype(object)
+    return frame
+
+
+def _store_metadata(gpkg: Path, metadata_json: str) -> None:
+    """Store the dataset metadata through the GeoPackage metadata extension."""
     con = sqlite3.connect(gpkg)
     try:
         with con:
@@ -446,29 +512,16 @@ def _store_metadata(gpkg: Path, styles: dict[str, str], metadata_json: str | Non
                         "definition, scope) VALUES (?, NULL, ?, ?, 'read-write')",
                         (table, _METADATA_EXTENSION, _METADATA_DEFINITION),
                     )
-            if metadata_json is not None:
-                cur = con.execute(
-                    "INSERT INTO gpkg_metadata (md_scope, md_standard_uri, mime_type, metadata) "
-                    "VALUES ('dataset', ?, 'application/json', ?)",
-                    (METADATA_STANDARD_URI, metadata_json),
-                )
-                con.execute(
-                    "INSERT INTO gpkg_metadata_reference (reference_scope, table_name, "
-                    "column_name, row_id_value, md_file_id, md_parent_id) "
-                    "VALUES ('geopackage', NULL, NULL, NULL, ?, NULL)",
-                    (cur.lastrowid,),
-                )
-            for name, sld in styles.items():
-                cur = con.execute(
-                    "INSERT INTO gpkg_metadata (md_scope, md_standard_uri, mime_type, metadata) "
-                    "VALUES ('style', ?, ?, ?)",
-                    (SLD_NS, SLD_MIME_TYPE, sld),
-                )
-                con.execute(
-                    "INSERT INTO gpkg_metadata_reference (reference_scope, table_name, "
-                    "column_name, row_id_value, md_file_id, md_parent_id) "
-                    "VALUES ('table', ?, NULL, NULL, ?, NULL)",
-                    (name, cur.lastrowid),
-                )
+            cur = con.execute(
+                "INSERT INTO gpkg_metadata (md_scope, md_standard_uri, mime_type, metadata) "
+                "VALUES ('dataset', ?, 'application/json', ?)",
+                (METADATA_STANDARD_URI, metadata_json),
+            )
+            con.execute(
+                "INSERT INTO gpkg_metadata_reference (reference_scope, table_name, "
+                "column_name, row_id_value, md_file_id, md_parent_id) "
+                "VALUES ('geopackage', NULL, NULL, NULL, ?, NULL)",
+                (cur.lastrowid,),
+            )
     finally:
         con.close()

@@ -3,33 +3,35 @@
 Two kinds of raster:
 
 - :func:`write_class_raster`: one uint8 band of class indices (belt ranks), with a
-  colour table (belt colours by rank), nodata outside the mapped area, a band
-  description and the class names. rasterio cannot set GDAL category names, so
-  the names are stored twice: as band tags ``CLASS_<index>=<name>`` inside the
-  TIFF, and as GDAL category names in the standard sidecar ``<file>.aux.xml``,
-  which GDAL-based desktop GIS read for the legend.
-- :func:`write_float_raster`: float32 bands, e.g. a belt-probability stack (a band
-  per belt) or the probability of the distal side of the tracked boundary, with a
-  description per band.
+  colour table of exactly the classes and nodata (nodata is the first value after the
+  classes by default, drawn transparent), a band description and the class names. The
+  names are inside the TIFF as band metadata ``CLASS_<index>=<name>`` (GDAL keeps them in
+  its metadata tag, so ``gdalinfo`` and a GIS's layer information show them for a lone
+  ``.tif``). A TIFF palette always has 2**bits entries (256 for uint8), so the exact
+  colour table and the class names as GDAL category names, which desktop GIS use for the
+  legend, are also written to the standard sidecar ``<file>.aux.xml``; GDAL then reports
+  exactly the classes and nodata.
+- :func:`write_float_raster`: float32 bands, e.g. a belt probability or the probability
+  of the distal side of the tracked boundary, with a description per band.
 
-Both write deflate-compressed, tiled GeoTIFFs to a temporary file beside the
-target and move it into place when complete
-(:func:`paleomap.io.atomic.atomic_output_path`). A stale ``.aux.xml`` beside the
-target, which GDAL would read over the new file's own metadata, is replaced or
-removed.
+Both write deflate-compressed, tiled GeoTIFFs (internal overviews on grids larger than
+:data:`OVERVIEW_MIN_SIZE` cells a side: nearest-class "mode" for classes, average for
+floats) to a temporary file beside the target and move it into place when complete
+(:func:`paleomap.io.atomic.atomic_output_path`). A stale ``.aux.xml`` beside the target,
+which GDAL would read over the new file's own metadata, is replaced or removed.
 
 Examples
 --------
 >>> import tempfile, pathlib, numpy as np
 >>> from rasterio.transform import Affine
->>> ranks = np.array([[0, 1], [1, 255]], dtype=np.uint8)
+>>> ranks = np.array([[0, 1], [1, 2]], dtype=np.uint8)
 >>> p = pathlib.Path(tempfile.mkdtemp()) / "belts.tif"
 >>> _ = write_class_raster(p, ranks, Affine(100, 0, 500000, 0, -100, 6000200), "EPSG:32631",
 ...                        ["#d9b56e", "#1d4f7c"], ["sand", "mud"])
 >>> import rasterio
 >>> with rasterio.open(p) as src:
-...     src.colormap(1)[1][:3]
-(29, 79, 124)
+...     src.nodata, src.colormap(1)[1][:3]
+(2.0, (29, 79, 124))
 """
 
 from __future__ import annotations
@@ -47,16 +49,29 @@ import numpy as np
 from ..figures.palette import hex_to_rgb
 from .atomic import atomic_output_path, atomic_write_text
 
-__all__ = ["CLASS_TAG_PREFIX", "write_class_raster", "write_float_raster"]
+__all__ = [
+    "CLASS_TAG_PREFIX",
+    "NODATA_NAME",
+    "OVERVIEW_MIN_SIZE",
+    "reproject_grid",
+    "write_class_raster",
+    "write_float_raster",
+]
 
 _log = logging.getLogger(__name__)
 
 CLASS_TAG_PREFIX = "CLASS_"
 """Band tags ``CLASS_<index>`` of a class raster hold the class names."""
 
-# Colour-table entries that are no class (and the nodata entry); GIS draw nodata
-# transparent anyway, and TIFF palettes carry no alpha.
-_UNUSED_ENTRY = (255, 255, 255, 255)
+NODATA_NAME = "no data"
+"""Category name of the nodata value of a class raster."""
+
+OVERVIEW_MIN_SIZE = 1024
+"""Rasters with more cells than this on a side get internal overviews."""
+
+# Colour-table entries that are no class (nodata, and padding up to 256 in the TIFF
+# palette): transparent, where the reader honours alpha.
+_UNUSED_ENTRY = (0, 0, 0, 0)
 
 
 def write_class_raster(
@@ -66,7 +81,7 @@ def write_class_raster(
     crs,
     colors: Sequence[str],
     names: Sequence[str],
-    nodata: int = 255,
+    nodata: int | None = None,
     *,
     description: str = "most likely belt",
     tags: Mapping[str, object] | None = None,
@@ -89,8 +104,10 @@ def write_class_raster(
         ``#rrggbb`` per class, class 0 first.
     names : sequence of str
         Name per class, class 0 first.
-    nodata : int
-        Value for cells outside the mapped area, 0-255, not a class index.
+    nodata : int or None
+        Value for cells outside the mapped area, up to 255 and not a class index;
+        None (default) for the first value after the classes, ``len(names)``, which
+        keeps the colour table to exactly the classes and nodata.
     description : str
         Band description.
     tags : mapping, optional
@@ -126,7 +143,7 @@ def write_class_raster(
         raise ValueError(f"got {len(colors)} colours for {len(names)} class names")
     if not names:
         raise ValueError("a class raster needs at least one class")
-    nodata = int(nodata)
+    nodata = len(names) if nodata is None else int(nodata)
     if not 0 <= nodata <= 255:
         raise ValueError(f"nodata must be 0-255 for a uint8 raster, got {nodata!r}")
     if nodata < len(names):
@@ -141,8 +158,12 @@ def write_class_raster(
             f"(0-{len(names) - 1}) nor nodata ({nodata})"
         )
     rgb = [hex_to_rgb(_check_color(c)) for c in colors]
+    # The table runs to nodata: the classes, then transparent entries up to and
+    # including nodata (one entry, nodata itself, by default).
+    table = [(*c, 255) for c in rgb] + [_UNUSED_ENTRY] * (nodata + 1 - len(rgb))
     colormap = dict.fromkeys(range(256), _UNUSED_ENTRY)
-    colormap.update({i: (*c, 255) for i, c in enumerate(rgb)})
+    colormap.update(enumerate(table))
+    categories = [str(n) for n in names] + [""] * (nodata - len(names)) + [NODATA_NAME]
     band_tags = {f"{CLASS_TAG_PREFIX}{i}": str(n) for i, n in enumerate(names)}
 
     profile = _profile(array.shape, 1, "uint8", transform, crs, nodata)
@@ -154,7 +175,8 @@ def write_class_raster(
             dst.update_tags(1, **band_tags)
             if tags:
                 dst.update_tags(**_tag_strings(tags))
-    atomic_write_text(_sidecar(path), _category_names_xml([str(n) for n in names]))
+            _overviews(dst, "mode")
+    atomic_write_text(_sidecar(path), _pam_xml(categories, table))
     _log.info("wrote class raster %s (%d x %d, %d classes)", path, *array.shape, len(names))
     return path
 
@@ -243,11 +265,85 @@ def write_float_raster(
                 dst.set_band_description(i, str(text))
             if tags:
                 dst.update_tags(**_tag_strings(tags))
+            _overviews(dst, "average")
     # The new file carries its own metadata; an old sidecar would override it.
     with contextlib.suppress(FileNotFoundError):
         _sidecar(path).unlink()
     _log.info("wrote float raster %s (%d bands, %d x %d)", path, *data.shape)
     return path
+
+
+def reproject_grid(
+    array: np.ndarray,
+    transform,
+    src_crs,
+    dst_crs,
+    *,
+    categorical: bool = False,
+    nodata: float = math.nan,
+):
+    """A 2-D grid resampled into another CRS, on a grid of about the same resolution.
+
+    Parameters
+    ----------
+    array : numpy.ndarray
+        (rows, columns): class indices (``categorical``) or floats with NaN outside.
+    transform : affine.Affine
+        Pixel-to-map transform of ``array`` in ``src_crs``.
+    src_crs, dst_crs : object
+        Anything ``pyproj.CRS.from_user_input`` accepts.
+    categorical : bool
+        Nearest-cell resampling for classes; bilinear otherwise.
+    nodata : float
+        Value of cells outside the data (NaN for floats, the nodata class for classes).
+
+    Returns
+    -------
+    (numpy.ndarray, affine.Affine)
+        The grid in ``dst_crs`` (same dtype) and its transform.
+
+    Examples
+    --------
+    >>> from rasterio.transform import Affine
+    >>> a = np.ones((4, 4), np.float32)
+    >>> out, t = reproject_grid(a, Affine(1000, 0, 500000, 0, -1000, 6000000),
+    ...                         "EPSG:32631", "EPSG:4326")
+    >>> out.dtype, bool(np.nanmax(out) == 1.0)
+    (dtype('float32'), True)
+    """
+    import pyproj
+    from rasterio.enums import Resampling
+    from rasterio.transform import Affine
+    from rasterio.warp import reproject
+
+    array = np.asarray(array)
+    src = _rasterio_crs(src_crs)
+    dst = _rasterio_crs(dst_crs)
+    rows, cols = array.shape
+    west, north = transform @ (0, 0)
+    east, south = transform @ (cols, rows)
+    to_dst = pyproj.Transformer.from_crs(
+        pyproj.CRS.from_user_input(src_crs), pyproj.CRS.from_user_input(dst_crs), always_xy=True
+    )
+    left, bottom, right, top = to_dst.transform_bounds(west, south, east, north, densify_pts=21)
+    # Square cells, about as many as the source grid has.
+    res = math.sqrt((right - left) * (top - bottom) / (rows * cols))
+    width = max(1, math.ceil((right - left) / res))
+    height = max(1, math.ceil((top - bottom) / res))
+    dst_transform = Affine(res, 0.0, left, 0.0, -res, top)
+    out = np.full((height, width), nodata, dtype=array.dtype)
+    reproject(
+        array,
+        out,
+        src_transform=transform,
+        src_crs=src,
+        dst_transform=dst_transform,
+        dst_crs=dst,
+        src_nodata=nodata,
+        dst_nodata=nodata,
+        resampling=Resampling.nearest if categorical else Resampling.bilinear,
+    )
+    return out, dst_transform
 
 
 # ------------------------------------------------------------------ shared parts
@@ -336,14 +432,34 @@ def _sidecar(path: Path) -> Path:
     return path.with_name(path.name + ".aux.xml")
 
 
-def _category_names_xml(names: list[str]) -> str:
+def _pam_xml(categories: list[str], table: list[tuple[int, int, int, int]]) -> str:
     root = ET.Element("PAMDataset")
     band = ET.SubElement(root, "PAMRasterBand", {"band": "1"})
     cats = ET.SubElement(band, "CategoryNames")
-    for name in names:
+    for name in categories:
         ET.SubElement(cats, "Category").text = name
+    ET.SubElement(band, "ColorInterp").text = "Palette"
+    colors = ET.SubElement(band, "ColorTable")
+    for r, g, b, a in table:
+        ET.SubElement(colors, "Entry", {"c1": str(r), "c2": str(g), "c3": str(b), "c4": str(a)})
     ET.indent(root, space="  ")
     return ET.tostring(root, encoding="unicode") + "\n"
+
+
+def _overviews(dst, resampling: str) -> None:
+    # Overviews only where a GIS would otherwise read every cell to draw a small map.
+    from rasterio.enums import Resampling
+
+    size = max(dst.width, dst.height)
+    if size <= OVERVIEW_MIN_SIZE:
+        return
+    factors = []
+    factor = 2
+    while size / factor >= 256:
+        factors.append(factor)
+        factor *= 2
+    dst.build_overviews(factors or [2], Resampling[resampling])
+    dst.update_tags(ns="rio_overview", resampling=resampling)
 
 
 @contextlib.contextmanager

@@ -35,7 +35,14 @@ import pyproj
 from ..agemodel import build_age_models, sample_slices
 from ..cores import build_cores, parse_number
 from ..errors import ProblemLog
-from ..project import Project, ProjectConfig, TomlLocator, parse_config, working_crs_for
+from ..project import (
+    Project,
+    ProjectConfig,
+    TomlLocator,
+    delivery_crs_for,
+    parse_config,
+    working_crs_for,
+)
 from ..scheme import name_key, suggest_names
 from .assemble import read_tables
 from .sources import header_names
@@ -242,6 +249,7 @@ def load_project(path: str | os.PathLike) -> Project:
         transect_lines=transect_lines,
         config_text=text,
         checksums=checksums,
+        output_crs=delivery_crs_for(cfg.crs, cfg.output_crs),
     )
     _check_records(project, cfg, log)
     log.emit_warnings(stacklevel=3)

@@ -1,78 +1,71 @@
-"""Layer styles as OGC SLD 1.1.0 documents (Symbology Encoding 1.1.0).
+"""paleomap's own description of how each deliverable is drawn.
 
-Each function returns one complete ``StyledLayerDescriptor`` document (UTF-8
-XML text) with a single ``NamedLayer`` whose name is the layer's table name, as
-desktop GIS expect when they load an ``.sld`` file or a style stored in a
-GeoPackage. The documents follow the SLD profile (OGC 05-078r4) of Symbology
-Encoding (OGC 05-077r4): ``sld:`` for the layer and style wrappers, ``se:`` for
-rules and symbolizers, ``ogc:`` (Filter Encoding 1.1) for the rule filters.
+A style here is plain data: :class:`LayerStyle` for a feature layer (one symbol, or one
+symbol per value of a field, with the fields a GIS time slider uses), :class:`PaletteStyle`
+for a class raster and :class:`RampStyle` for a continuous raster. Every size is in
+millimetres on the page, so a map looks the same at any screen resolution and in print.
+:mod:`paleomap.io.qml` writes them as QGIS's QML, :mod:`paleomap.io.sld` as OGC SLD 1.1.0;
+both encodings come from the same description, so they cannot drift apart.
 
-Generic builders: :func:`fill_sld`, :func:`categorized_fill_sld`, :func:`line_sld`,
-:func:`categorized_line_sld`, :func:`point_sld`, :func:`categorized_point_sld`. A
-category is a ``(value, label, color)`` tuple: features whose field equals
-``value`` are drawn in ``color`` and listed in the legend as ``label``.
+Colours besides the belt colours (which come from the facies scheme):
 
-:func:`layer_styles` gives the styles of paleomap's own layers. Colours used
-besides the belt colours (which come from the facies scheme):
-
-- shoreline shifts by ``sense`` (:data:`SENSE_COLORS`): transgression (landward)
-  blue ``#0072b2``, regression (seaward) orange ``#e69f00``, stillstand grey
-  ``#8c8c8c``, uncertain (P10-P90 spans zero) pale grey ``#d9d9d9``. Blue and
-  orange are taken from the colour-blind-safe set of Okabe & Ito (2008, "Color
-  Universal Design"); they differ in lightness and along the blue-yellow axis,
-  which deuteranopes and protanopes keep, and the sea-ward /
-  land-ward reading (water blue, sand orange) matches the belt palette;
-- shorelines in the palette's shoreline red, the shoreline band the same red
-  at 30 % opacity, transects dark grey dashed, cores white circles with a dark
-  outline, core contacts reddish-purple triangles (``#cc79a7``, Okabe & Ito 2008);
+- shoreline shifts by ``sense`` (:data:`SENSE_COLORS`): transgression (landward) blue
+  ``#0072b2``, regression (seaward) orange ``#e69f00``, stillstand grey ``#8c8c8c``. Blue and
+  orange are from the colour-blind-safe set of Okabe & Ito (2008, "Color Universal
+  Design"); they differ in lightness and along the blue-yellow axis, which deuteranopes and
+  protanopes keep, and the reading (water blue, sand orange) matches the belt palette;
+- shorelines in the palette's shoreline red, the shoreline band the same red at 30 %
+  opacity, transects dark grey dashed, cores white circles with a dark outline, core
+  contacts reddish-purple triangles (``#cc79a7``, Okabe & Ito 2008); shifts whose P10-P90
+  range spans zero (``uncertain``) pale grey;
 - suggested turnarounds as squares by ``kind`` (:data:`TURNAROUND_COLORS`): maximum
   flooding blue, maximum regressive orange; gaps (no recovery) grey crosses; control
-  points (the user's pseudo-cores, interpretations rather than observations) green
-  stars (``#009e73``, Okabe & Ito 2008), so they are never read as cores.
+  points (the user's pseudo-cores, interpretations rather than observations) bluish-green
+  stars (``#009e73``, Okabe & Ito 2008), so they are never read as cores;
+- belt probabilities on viridis (:data:`PROBABILITY_STOPS`; perceptually uniform and
+  readable with common colour-vision deficiencies, van der Walt & Smith 2015), the same
+  ramp for every belt so that probabilities compare across files;
+- the probability of the distal side of the tracked boundary (:data:`DISTAL_STOPS`) from
+  the regression orange (proximal side certain) through mid grey (even odds) to the
+  transgression blue (distal side certain): no stop is near white, so the ramp stays
+  visible on a white page.
 
 Examples
 --------
->>> sld = line_sld("shorelines", "#c0392b", width=1.8)
->>> sld_layer_name(sld)
-'shorelines'
+>>> style = layer_styles([("sand", "Sand", "#d9b56e"), ("mud", "Mud", "#1d4f7c")])["facies_belts"]
+>>> style.field, [c.value for c in style.categories]
+('belt', ['sand', 'mud'])
+>>> style.categories[0].symbol.stroke_width_mm
+0.26
 """
 
 from __future__ import annotations
 
 import math
 import re
-import xml.etree.ElementTree as ET
 from collections.abc import Sequence
+from dataclasses import dataclass, field
 
 from ..figures.palette import SHORELINE_COLOR
 
 __all__ = [
-    "OGC_NS",
+    "DISTAL_STOPS",
+    "PROBABILITY_STOPS",
     "SENSE_COLORS",
+    "SHAPES",
     "TURNAROUND_COLORS",
-    "SE_NS",
-    "SLD_MIME_TYPE",
-    "SLD_NS",
+    "Category",
+    "LayerStyle",
+    "PaletteStyle",
+    "RampStyle",
+    "Symbol",
+    "TimeFields",
     "belt_categories",
-    "categorized_fill_sld",
-    "categorized_line_sld",
-    "categorized_point_sld",
-    "fill_sld",
+    "belt_palette",
+    "distal_ramp",
     "layer_styles",
-    "line_sld",
-    "point_sld",
-    "sld_layer_name",
+    "probability_ramp",
 ]
-
-SLD_NS = "http://www.opengis.net/sld"
-SE_NS = "http://www.opengis.net/se"
-OGC_NS = "http://www.opengis.net/ogc"
-_XLINK_NS = "http://www.w3.org/1999/xlink"
-_XSI_NS = "http://www.w3.org/2001/XMLSchema-instance"
-_SCHEMA_LOCATION = f"{SLD_NS} http://schemas.opengis.net/sld/1.1.0/StyledLayerDescriptor.xsd"
-
-SLD_MIME_TYPE = "application/vnd.ogc.sld+xml"
-"""MIME type of an SLD document (OGC 05-078r4)."""
 
 SENSE_COLORS: dict[str, str] = {
     "transgression": "#0072b2",
@@ -80,15 +73,7 @@ SENSE_COLORS: dict[str, str] = {
     "stillstand": "#8c8c8c",
     "uncertain": "#d9d9d9",
 }
-"""Colours of shoreline shifts by sense (Okabe & Ito 2008 blue and orange, a grey, and a
-pale grey where the P10-P90 range of the shift spans zero)."""
-
-_SENSE_LABELS = {
-    "transgression": "Transgression (landward)",
-    "regression": "Regression (seaward)",
-    "stillstand": "Stillstand",
-    "uncertain": "Uncertain (P10-P90 spans zero)",
-}
+"""Colours of shoreline shifts by sense (Okabe & Ito 2008 blue and orange, and greys)."""
 
 TURNAROUND_COLORS: dict[str, str] = {
     "maximum flooding": "#0072b2",
@@ -97,11 +82,36 @@ TURNAROUND_COLORS: dict[str, str] = {
 """Colours of suggested turnarounds by kind: the transgression blue at a maximum flooding
 surface (the end of a transgression), the regression orange at a maximum regressive one."""
 
-_GAP_COLOR = "#8c8c8c"
-_CONTROL_COLOR = "#009e73"
+SHAPES = ("circle", "square", "triangle", "star", "cross", "x")
+"""Marker shapes every style encoding knows (the SE 1.1.0 well-known marks)."""
 
-# The marks every SE renderer knows (OGC 05-077r4, 11.3.2).
-_WELL_KNOWN_MARKS = ("square", "circle", "triangle", "star", "cross", "x")
+PROBABILITY_STOPS: tuple[tuple[float, str], ...] = (
+    (0.0, "#440154"),
+    (0.25, "#3b528b"),
+    (0.5, "#21918c"),
+    (0.75, "#5ec962"),
+    (1.0, "#fde725"),
+)
+"""(probability, colour) stops of the belt-probability ramp: matplotlib's viridis."""
+
+DISTAL_STOPS: tuple[tuple[float, str], ...] = (
+    (0.0, SENSE_COLORS["regression"]),
+    (0.5, "#8c8c8c"),
+    (1.0, SENSE_COLORS["transgression"]),
+)
+"""(probability, colour) stops of the distal-probability ramp: orange, grey, blue."""
+
+_SENSE_LABELS = {
+    "transgression": "Transgression (landward)",
+    "regression": "Regression (seaward)",
+    "stillstand": "Stillstand",
+    "uncertain": "Uncertain (P10-P90 spans zero)",
+}
+_GAP_COLOR = "#8c8c8c"
+# Control points are interpretations, not cores: a different mark and colour (Okabe & Ito
+# 2008 bluish green).
+_CONTROL_COLOR = "#009e73"
+_KINDS = ("fill", "line", "marker")
 _HEX = re.compile(r"^#[0-9a-fA-F]{6}$")
 
 _TRANSECT_COLOR = "#404040"
@@ -109,39 +119,10 @@ _BELT_STROKE = "#4d4d4d"
 _CORE_STROKE = "#1a1a1a"
 _CONTACT_COLOR = "#cc79a7"
 
-for _prefix, _uri in (
-    ("sld", SLD_NS),
-    ("se", SE_NS),
-    ("ogc", OGC_NS),
-    ("xlink", _XLINK_NS),
-    ("xsi", _XSI_NS),
-):
-    ET.register_namespace(_prefix, _uri)
 
-
-def _sld(tag: str) -> str:
-    return f"{{{SLD_NS}}}{tag}"
-
-
-def _se(tag: str) -> str:
-    return f"{{{SE_NS}}}{tag}"
-
-
-def _ogc(tag: str) -> str:
-    return f"{{{OGC_NS}}}{tag}"
-
-
-# ------------------------------------------------------------------ checking input
-
-
-def _check_name(what: str, name: str) -> None:
-    if not isinstance(name, str) or not name.strip():
-        raise ValueError(f"{what} must be a non-empty string, got {name!r}")
-
-
-def _check_color(color: str) -> str:
+def _check_color(what: str, color: str) -> str:
     if not isinstance(color, str) or not _HEX.match(color):
-        raise ValueError(f"colour must be '#rrggbb', got {color!r}")
+        raise ValueError(f"{what} must be '#rrggbb', got {color!r}")
     return color.lower()
 
 
@@ -155,39 +136,241 @@ def _check_fraction(what: str, value: float) -> float:
 def _check_positive(what: str, value: float) -> float:
     value = float(value)
     if not (math.isfinite(value) and value > 0):
-        raise ValueError(f"{what} must be a positive number, got {value!r}")
+        raise ValueError(f"{what} must be a positive number of millimetres, got {value!r}")
     return value
 
 
-def _check_dasharray(dasharray: Sequence[float] | None) -> str | None:
-    if dasharray is None:
-        return None
-    values = [_check_positive("each dash length", d) for d in dasharray]
-    if not values:
-        raise ValueError("dasharray must hold at least one length, got an empty sequence")
-    return " ".join(_num(v) for v in values)
+def _check_name(what: str, name: str) -> str:
+    if not isinstance(name, str) or not name.strip():
+        raise ValueError(f"{what} must be a non-empty string, got {name!r}")
+    return name
 
 
-def _check_categories(categories: Sequence[tuple[object, str, str]]) -> list[tuple[str, str, str]]:
-    out = []
-    seen: set[str] = set()
-    if not categories:
-        raise ValueError("categories must hold at least one (value, label, color) tuple")
-    for item in categories:
-        if len(item) != 3:
-            raise ValueError(f"a category is a (value, label, color) tuple, got {item!r}")
-        value, label, color = item
-        literal = _literal(value)
-        if literal in seen:
-            raise ValueError(f"category value {value!r} is listed twice")
-        seen.add(literal)
-        _check_name("category label", label)
-        out.append((literal, label, _check_color(color)))
-    return out
+@dataclass(frozen=True)
+class Symbol:
+    """How a feature is drawn; sizes in millimetres.
+
+    Parameters
+    ----------
+    kind : {"fill", "line", "marker"}
+        Polygon fill, line stroke or point marker.
+    color : str
+        ``#rrggbb`` of the fill, the line or the marker.
+    opacity : float
+        0 (clear) to 1 (solid), of the fill, line or marker.
+    stroke_color : str or None
+        Outline of a fill or marker; None draws none. Unused for lines.
+    stroke_width_mm : float
+        Width of a line, or of the outline of a fill or marker.
+    size_mm : float
+        Marker diameter.
+    shape : str
+        Marker shape, one of :data:`SHAPES`.
+    dash_mm : tuple of float or None
+        Dash and gap lengths of a line; None for a solid line.
+
+    Examples
+    --------
+    >>> Symbol("line", "#404040", stroke_width_mm=0.3, dash_mm=(2.0, 1.0)).dash_mm
+    (2.0, 1.0)
+    """
+
+    kind: str
+    color: str
+    opacity: float = 1.0
+    stroke_color: str | None = None
+    stroke_width_mm: float = 0.26
+    size_mm: float = 2.0
+    shape: str = "circle"
+    dash_mm: tuple[float, ...] | None = None
+
+    def __post_init__(self) -> None:
+        if self.kind not in _KINDS:
+            raise ValueError(f"symbol kind must be one of {', '.join(_KINDS)}; got {self.kind!r}")
+        object.__setattr__(self, "color", _check_color("colour", self.color))
+        object.__setattr__(self, "opacity", _check_fraction("opacity", self.opacity))
+        if self.stroke_color is not None:
+            object.__setattr__(
+                self, "stroke_color", _check_color("stroke colour", self.stroke_color)
+            )
+        _check_positive("stroke width", self.stroke_width_mm)
+        _check_positive("marker size", self.size_mm)
+        if self.shape not in SHAPES:
+            raise ValueError(f"shape must be one of {', '.join(SHAPES)}; got {self.shape!r}")
+        if self.dash_mm is not None:
+            dashes = tuple(_check_positive("each dash length", d) for d in self.dash_mm)
+            if not dashes:
+                raise ValueError("dash_mm must hold at least one length, got an empty sequence")
+            object.__setattr__(self, "dash_mm", dashes)
+
+
+@dataclass(frozen=True)
+class Category:
+    """Features whose field equals ``value`` are drawn with ``symbol``, listed as ``label``."""
+
+    value: object
+    label: str
+    symbol: Symbol
+
+    def __post_init__(self) -> None:
+        _literal(self.value)
+        _check_name("category label", self.label)
+
+
+@dataclass(frozen=True)
+class TimeFields:
+    """Date-time fields a GIS time slider reads: an instant, or a start and an end.
+
+    Examples
+    --------
+    >>> TimeFields("slider_start", "slider_end").end
+    'slider_end'
+    """
+
+    start: str
+    end: str | None = None
+
+    def __post_init__(self) -> None:
+        _check_name("time field", self.start)
+        if self.end is not None:
+            _check_name("time end field", self.end)
+
+
+@dataclass(frozen=True)
+class LayerStyle:
+    """The default style of one feature layer.
+
+    Either one ``symbol`` for every feature, or a ``field`` with ``categories`` (and
+    optionally an ``other`` symbol for values in no category).
+
+    Parameters
+    ----------
+    layer : str
+        Layer (table) name.
+    title : str
+        Style title shown in the GIS.
+    symbol : Symbol or None
+        The one symbol of a single-symbol style.
+    field : str or None
+        Attribute whose value picks the category.
+    categories : tuple of Category
+        One per value, in legend order.
+    other : Symbol or None
+        Symbol for features matching no category.
+    time : TimeFields or None
+        Date-time fields for a time slider, for layers that vary by slice.
+
+    Examples
+    --------
+    >>> s = LayerStyle("cores", "Cores", symbol=Symbol("marker", "#ffffff"))
+    >>> s.geometry_kind
+    'marker'
+    """
+
+    layer: str
+    title: str
+    symbol: Symbol | None = None
+    field: str | None = None
+    categories: tuple[Category, ...] = ()
+    other: Symbol | None = None
+    time: TimeFields | None = None
+
+    def __post_init__(self) -> None:
+        _check_name("layer", self.layer)
+        _check_name("title", self.title)
+        object.__setattr__(self, "categories", tuple(self.categories))
+        if (self.symbol is None) == (not self.categories):
+            raise ValueError(
+                f"style of {self.layer!r} needs either one symbol or categories, not both"
+            )
+        if self.categories:
+            _check_name("field", self.field)
+            seen = set()
+            for cat in self.categories:
+                literal = _literal(cat.value)
+                if literal in seen:
+                    raise ValueError(f"category value {cat.value!r} is listed twice")
+                seen.add(literal)
+        kinds = {s.kind for s in self.symbols}
+        if len(kinds) != 1:
+            raise ValueError(f"style of {self.layer!r} mixes symbol kinds {sorted(kinds)}")
+
+    @property
+    def symbols(self) -> list[Symbol]:
+        """Every symbol of the style, in legend order (the ``other`` one last)."""
+        if self.symbol is not None:
+            return [self.symbol]
+        out = [c.symbol for c in self.categories]
+        return out + ([self.other] if self.other is not None else [])
+
+    @property
+    def geometry_kind(self) -> str:
+        """``"fill"``, ``"line"`` or ``"marker"``."""
+        return self.symbols[0].kind
+
+
+@dataclass(frozen=True)
+class PaletteStyle:
+    """A class raster drawn one colour per value, each class with its name.
+
+    ``classes`` holds ``(value, label, color)``; values not listed (nodata) are not drawn.
+
+    Examples
+    --------
+    >>> PaletteStyle("Belt", ((0, "Sand", "#d9b56e"),)).classes[0][1]
+    'Sand'
+    """
+
+    title: str
+    classes: tuple[tuple[int, str, str], ...]
+    band: int = 1
+
+    def __post_init__(self) -> None:
+        _check_name("title", self.title)
+        if not self.classes:
+            raise ValueError("a palette needs at least one class")
+        values = [int(v) for v, _, _ in self.classes]
+        if len(set(values)) != len(values):
+            raise ValueError(f"palette values repeat: {values}")
+        for _, label, color in self.classes:
+            _check_name("class label", label)
+            _check_color("class colour", color)
+
+
+@dataclass(frozen=True)
+class RampStyle:
+    """One band of a continuous raster drawn on a colour ramp.
+
+    ``stops`` holds ``(value, color)`` in increasing value; colours are interpolated
+    between them, and values below the first or above the last take the end colours.
+
+    Examples
+    --------
+    >>> probability_ramp("P(sand)").stops[0]
+    (0.0, '#440154')
+    """
+
+    title: str
+    stops: tuple[tuple[float, str], ...]
+    band: int = 1
+    labels: tuple[str, ...] = field(default=())
+
+    def __post_init__(self) -> None:
+        _check_name("title", self.title)
+        if len(self.stops) < 2:
+            raise ValueError("a ramp needs at least two stops")
+        values = [float(v) for v, _ in self.stops]
+        if any(b <= a for a, b in zip(values, values[1:], strict=False)):
+            raise ValueError(f"ramp stops must increase, got {values}")
+        for _, color in self.stops:
+            _check_color("stop colour", color)
+        if self.labels and len(self.labels) != len(self.stops):
+            raise ValueError(f"got {len(self.labels)} labels for {len(self.stops)} stops")
 
 
 def _literal(value: object) -> str:
-    # Booleans are stored as 0/1 integers in a GeoPackage, so filter on those.
+    """A category value as the text both encodings compare the field against."""
+    # Booleans are stored as 0/1 integers in a GeoPackage, so compare with those.
     if isinstance(value, bool):
         return "1" if value else "0"
     if isinstance(value, int | str):
@@ -197,460 +380,8 @@ def _literal(value: object) -> str:
     raise ValueError(f"a category value must be a string, integer or finite number, got {value!r}")
 
 
-def _num(value: float) -> str:
-    return f"{value:g}"
-
-
-# ------------------------------------------------------------------ building XML
-
-
-def _document(layer: str, title: str | None, rules: list[ET.Element]) -> str:
-    _check_name("layer", layer)
-    root = ET.Element(
-        _sld("StyledLayerDescriptor"),
-        {"version": "1.1.0", f"{{{_XSI_NS}}}schemaLocation": _SCHEMA_LOCATION},
-    )
-    named = ET.SubElement(root, _sld("NamedLayer"))
-    ET.SubElement(named, _se("Name")).text = layer
-    style = ET.SubElement(named, _sld("UserStyle"))
-    ET.SubElement(style, _se("Name")).text = layer
-    desc = ET.SubElement(style, _se("Description"))
-    ET.SubElement(desc, _se("Title")).text = title or layer
-    fts = ET.SubElement(style, _se("FeatureTypeStyle"))
-    fts.extend(rules)
-    ET.indent(root, space="  ")
-    body = ET.tostring(root, encoding="unicode")
-    return '<?xml version="1.0" encoding="UTF-8"?>\n' + body + "\n"
-
-
-def _rule(name: str, title: str, symbolizer: ET.Element, filt: ET.Element | None) -> ET.Element:
-    rule = ET.Element(_se("Rule"))
-    ET.SubElement(rule, _se("Name")).text = name
-    desc = ET.SubElement(rule, _se("Description"))
-    ET.SubElement(desc, _se("Title")).text = title
-    if filt is not None:
-        rule.append(filt)
-    rule.append(symbolizer)
-    return rule
-
-
-def _equal_filter(field: str, literal: str) -> ET.Element:
-    filt = ET.Element(_ogc("Filter"))
-    eq = ET.SubElement(filt, _ogc("PropertyIsEqualTo"))
-    ET.SubElement(eq, _ogc("PropertyName")).text = field
-    ET.SubElement(eq, _ogc("Literal")).text = literal
-    return filt
-
-
-def _else_filter() -> ET.Element:
-    return ET.Element(_se("ElseFilter"))
-
-
-def _params(parent: ET.Element, tag: str, params: dict[str, str | None]) -> ET.Element:
-    el = ET.SubElement(parent, _se(tag))
-    for key, value in params.items():
-        if value is not None:
-            ET.SubElement(el, _se("SvgParameter"), {"name": key}).text = value
-    return el
-
-
-def _polygon_symbolizer(
-    color: str, opacity: float, stroke_color: str | None, stroke_width: float
-) -> ET.Element:
-    sym = ET.Element(_se("PolygonSymbolizer"))
-    _params(sym, "Fill", {"fill": color, "fill-opacity": _num(opacity)})
-    if stroke_color is not None:
-        _params(
-            sym,
-            "Stroke",
-            {
-                "stroke": stroke_color,
-                "stroke-width": _num(stroke_width),
-                "stroke-linejoin": "round",
-            },
-        )
-    return sym
-
-
-def _line_symbolizer(color: str, width: float, opacity: float, dasharray: str | None) -> ET.Element:
-    sym = ET.Element(_se("LineSymbolizer"))
-    _params(
-        sym,
-        "Stroke",
-        {
-            "stroke": color,
-            "stroke-width": _num(width),
-            "stroke-opacity": _num(opacity),
-            "stroke-linejoin": "round",
-            "stroke-linecap": "round",
-            "stroke-dasharray": dasharray,
-        },
-    )
-    return sym
-
-
-def _point_symbolizer(
-    color: str, size: float, shape: str, stroke_color: str | None, stroke_width: float
-) -> ET.Element:
-    sym = ET.Element(_se("PointSymbolizer"))
-    graphic = ET.SubElement(sym, _se("Graphic"))
-    mark = ET.SubElement(graphic, _se("Mark"))
-    ET.SubElement(mark, _se("WellKnownName")).text = shape
-    _params(mark, "Fill", {"fill": color})
-    if stroke_color is not None:
-        _params(mark, "Stroke", {"stroke": stroke_color, "stroke-width": _num(stroke_width)})
-    ET.SubElement(graphic, _se("Size")).text = _num(size)
-    return sym
-
-
-def _categorized(layer, field, categories, title, other_color, make_symbolizer) -> str:
-    _check_name("field", field)
-    cats = _check_categories(categories)
-    rules = [
-        _rule(literal, label, make_symbolizer(color), _equal_filter(field, literal))
-        for literal, label, color in cats
-    ]
-    if other_color is not None:
-        rules.append(
-            _rule("other", "Other", make_symbolizer(_check_color(other_color)), _else_filter())
-        )
-    return _document(layer, title, rules)
-
-
-def _check_mark(shape: str) -> str:
-    if shape not in _WELL_KNOWN_MARKS:
-        raise ValueError(f"shape must be one of {', '.join(_WELL_KNOWN_MARKS)}; got {shape!r}")
-    return shape
-
-
-# ------------------------------------------------------------------ public builders
-
-
-def fill_sld(
-    layer: str,
-    color: str,
-    *,
-    opacity: float = 0.3,
-    stroke_color: str | None = None,
-    stroke_width: float = 0.5,
-    title: str | None = None,
-) -> str:
-    """One fill for every polygon of a layer.
-
-    Parameters
-    ----------
-    layer : str
-        Layer (table) name.
-    color : str
-        Fill colour ``#rrggbb``.
-    opacity : float
-        Fill opacity, 0 (clear) to 1 (solid); semi-transparent by default.
-    stroke_color : str or None
-        Outline colour; None draws no outline.
-    stroke_width : float
-        Outline width in pixels.
-    title : str or None
-        Style title shown in the GIS; the layer name if None.
-
-    Returns
-    -------
-    str
-        The SLD document.
-
-    Examples
-    --------
-    >>> "fill-opacity" in fill_sld("shoreline_bands", "#c0392b", opacity=0.3)
-    True
-    """
-    color = _check_color(color)
-    opacity = _check_fraction("opacity", opacity)
-    stroke = None if stroke_color is None else _check_color(stroke_color)
-    width = _check_positive("stroke_width", stroke_width)
-    sym = _polygon_symbolizer(color, opacity, stroke, width)
-    return _document(layer, title, [_rule(layer, title or layer, sym, None)])
-
-
-def categorized_fill_sld(
-    layer: str,
-    field: str,
-    categories: Sequence[tuple[object, str, str]],
-    *,
-    opacity: float = 1.0,
-    stroke_color: str | None = _BELT_STROKE,
-    stroke_width: float = 0.26,
-    title: str | None = None,
-    other_color: str | None = None,
-) -> str:
-    """Polygons filled by the value of a field, one rule per category.
-
-    Parameters
-    ----------
-    layer : str
-        Layer (table) name.
-    field : str
-        Attribute whose value picks the category.
-    categories : sequence of (value, label, color)
-        One tuple per category, in legend order.
-    opacity : float
-        Fill opacity, 0 to 1.
-    stroke_color : str or None
-        Outline colour; None draws no outline.
-    stroke_width : float
-        Outline width in pixels.
-    title : str or None
-        Style title; the layer name if None.
-    other_color : str or None
-        If given, a last rule (``ElseFilter``) draws features matching no category.
-
-    Returns
-    -------
-    str
-        The SLD document.
-
-    Examples
-    --------
-    >>> sld = categorized_fill_sld("facies_belts", "belt",
-    ...                            [("sand", "Sand", "#d9b56e"), ("mud", "Mud", "#1d4f7c")])
-    >>> sld.count("<se:Rule>")
-    2
-    """
-    opacity = _check_fraction("opacity", opacity)
-    stroke = None if stroke_color is None else _check_color(stroke_color)
-    width = _check_positive("stroke_width", stroke_width)
-    return _categorized(
-        layer,
-        field,
-        categories,
-        title,
-        other_color,
-        lambda c: _polygon_symbolizer(c, opacity, stroke, width),
-    )
-
-
-def line_sld(
-    layer: str,
-    color: str,
-    *,
-    width: float = 1.0,
-    opacity: float = 1.0,
-    dasharray: Sequence[float] | None = None,
-    title: str | None = None,
-) -> str:
-    """One stroke for every line of a layer.
-
-    Parameters
-    ----------
-    layer : str
-        Layer (table) name.
-    color : str
-        Line colour ``#rrggbb``.
-    width : float
-        Line width in pixels.
-    opacity : float
-        Line opacity, 0 to 1.
-    dasharray : sequence of float or None
-        Dash and gap lengths in pixels (e.g. ``(6, 3)``); None for a solid line.
-    title : str or None
-        Style title; the layer name if None.
-
-    Returns
-    -------
-    str
-        The SLD document.
-
-    Examples
-    --------
-    >>> "stroke-dasharray" in line_sld("transects", "#404040", dasharray=(6, 3))
-    True
-    """
-    sym = _line_symbolizer(
-        _check_color(color),
-        _check_positive("width", width),
-        _check_fraction("opacity", opacity),
-        _check_dasharray(dasharray),
-    )
-    return _document(layer, title, [_rule(layer, title or layer, sym, None)])
-
-
-def categorized_line_sld(
-    layer: str,
-    field: str,
-    categories: Sequence[tuple[object, str, str]],
-    *,
-    width: float = 1.5,
-    opacity: float = 1.0,
-    dasharray: Sequence[float] | None = None,
-    title: str | None = None,
-    other_color: str | None = None,
-) -> str:
-    """Lines coloured by the value of a field, one rule per category.
-
-    Parameters
-    ----------
-    layer : str
-        Layer (table) name.
-    field : str
-        Attribute whose value picks the category.
-    categories : sequence of (value, label, color)
-        One tuple per category, in legend order.
-    width : float
-        Line width in pixels.
-    opacity : float
-        Line opacity, 0 to 1.
-    dasharray : sequence of float or None
-        Dash and gap lengths in pixels; None for solid lines.
-    title : str or None
-        Style title; the layer name if None.
-    other_color : str or None
-        If given, a last rule (``ElseFilter``) draws features matching no category.
-
-    Returns
-    -------
-    str
-        The SLD document.
-
-    Examples
-    --------
-    >>> sld = categorized_line_sld("shoreline_shifts", "sense",
-    ...                            [("regression", "Regression", "#e69f00")])
-    >>> "PropertyIsEqualTo" in sld
-    True
-    """
-    width = _check_positive("width", width)
-    opacity = _check_fraction("opacity", opacity)
-    dashes = _check_dasharray(dasharray)
-    return _categorized(
-        layer,
-        field,
-        categories,
-        title,
-        other_color,
-        lambda c: _line_symbolizer(c, width, opacity, dashes),
-    )
-
-
-def point_sld(
-    layer: str,
-    color: str,
-    *,
-    size: float = 7.0,
-    shape: str = "circle",
-    stroke_color: str | None = _CORE_STROKE,
-    stroke_width: float = 0.8,
-    title: str | None = None,
-) -> str:
-    """One marker for every point of a layer.
-
-    Parameters
-    ----------
-    layer : str
-        Layer (table) name.
-    color : str
-        Marker fill ``#rrggbb``.
-    size : float
-        Marker size in pixels.
-    shape : str
-        A well-known mark: square, circle, triangle, star, cross or x.
-    stroke_color : str or None
-        Marker outline colour; None for no outline.
-    stroke_width : float
-        Outline width in pixels.
-    title : str or None
-        Style title; the layer name if None.
-
-    Returns
-    -------
-    str
-        The SLD document.
-
-    Examples
-    --------
-    >>> "<se:WellKnownName>circle</se:WellKnownName>" in point_sld("cores", "#ffffff")
-    True
-    """
-    stroke = None if stroke_color is None else _check_color(stroke_color)
-    sym = _point_symbolizer(
-        _check_color(color),
-        _check_positive("size", size),
-        _check_mark(shape),
-        stroke,
-        _check_positive("stroke_width", stroke_width),
-    )
-    return _document(layer, title, [_rule(layer, title or layer, sym, None)])
-
-
-def categorized_point_sld(
-    layer: str,
-    field: str,
-    categories: Sequence[tuple[object, str, str]],
-    *,
-    size: float = 7.0,
-    shape: str = "circle",
-    stroke_color: str | None = _CORE_STROKE,
-    stroke_width: float = 0.8,
-    title: str | None = None,
-    other_color: str | None = None,
-) -> str:
-    """Point markers coloured by the value of a field, one rule per category.
-
-    Parameters
-    ----------
-    layer : str
-        Layer (table) name.
-    field : str
-        Attribute whose value picks the category.
-    categories : sequence of (value, label, color)
-        One tuple per category, in legend order.
-    size : float
-        Marker size in pixels.
-    shape : str
-        A well-known mark: square, circle, triangle, star, cross or x.
-    stroke_color : str or None
-        Marker outline colour; None for no outline.
-    stroke_width : float
-        Outline width in pixels.
-    title : str or None
-        Style title; the layer name if None.
-    other_color : str or None
-        If given, a last rule (``ElseFilter``) draws features matching no category.
-
-    Returns
-    -------
-    str
-        The SLD document.
-
-    Examples
-    --------
-    >>> sld = categorized_point_sld("core_slices", "belt", [("silt", "Silt", "#6fb7b0")])
-    >>> "PointSymbolizer" in sld
-    True
-    """
-    size = _check_positive("size", size)
-    shape = _check_mark(shape)
-    stroke = None if stroke_color is None else _check_color(stroke_color)
-    width = _check_positive("stroke_width", stroke_width)
-    return _categorized(
-        layer,
-        field,
-        categories,
-        title,
-        other_color,
-        lambda c: _point_symbolizer(c, size, shape, stroke, width),
-    )
-
-
 def belt_categories(scheme) -> list[tuple[str, str, str]]:
     """``(id, label, color)`` of every belt of a facies scheme, proximal first.
-
-    Parameters
-    ----------
-    scheme : paleomap.scheme.Scheme
-        The facies scheme.
-
-    Returns
-    -------
-    list of (str, str, str)
-        Categories for the ``belt`` field of belt and core layers.
 
     Examples
     --------
@@ -661,20 +392,63 @@ def belt_categories(scheme) -> list[tuple[str, str, str]]:
     return [(b.id, b.label or b.id, b.color) for b in scheme.belts]
 
 
-def layer_styles(belts: Sequence[tuple[str, str, str]]) -> dict[str, str]:
-    """SLD documents for paleomap's own spatial layers.
+def belt_palette(belts: Sequence[tuple[str, str, str]], title: str = "Belt") -> PaletteStyle:
+    """The class-raster style of belt ranks: value = rank, one named class per belt.
+
+    Examples
+    --------
+    >>> belt_palette([("sand", "Sand", "#d9b56e"), ("mud", "Mud", "#1d4f7c")]).classes[1]
+    (1, 'Mud', '#1d4f7c')
+    """
+    return PaletteStyle(title, tuple((i, label, c) for i, (_, label, c) in enumerate(belts)))
+
+
+def probability_ramp(title: str) -> RampStyle:
+    """Single-band pseudocolour of a belt probability, 0 to 1 on viridis.
+
+    Examples
+    --------
+    >>> probability_ramp("P(sand)").stops[-1]
+    (1.0, '#fde725')
+    """
+    labels = tuple(f"{v:g}" for v, _ in PROBABILITY_STOPS)
+    return RampStyle(title, PROBABILITY_STOPS, labels=labels)
+
+
+def distal_ramp(title: str) -> RampStyle:
+    """Single-band pseudocolour of the distal-side probability: orange, grey, blue.
+
+    Examples
+    --------
+    >>> distal_ramp("P(distal)").labels
+    ('0 (proximal side)', '0.5', '1 (distal side)')
+    """
+    return RampStyle(title, DISTAL_STOPS, labels=("0 (proximal side)", "0.5", "1 (distal side)"))
+
+
+def layer_styles(
+    belts: Sequence[tuple[str, str, str]],
+    *,
+    slice_time: TimeFields | None = None,
+    pair_time: TimeFields | None = None,
+) -> dict[str, LayerStyle]:
+    """The default style of every spatial layer of paleomap's GeoPackage.
 
     Parameters
     ----------
     belts : sequence of (id, label, color)
         The belts of the facies scheme, proximal first (see :func:`belt_categories`).
+    slice_time : TimeFields or None
+        Time-slider field of the layers drawn per slice.
+    pair_time : TimeFields or None
+        Time-slider fields of the layers drawn per pair of slices (start = older slice).
 
     Returns
     -------
-    dict of str to str
-        Layer name to SLD document, for ``cores``, ``core_slices``, ``core_contacts``,
-        ``turnarounds``, ``gaps``, ``control_points``, ``facies_belts``, ``shorelines``,
-        ``shoreline_bands``, ``transects`` and ``shoreline_shifts``.
+    dict of str to LayerStyle
+        For ``cores``, ``core_slices``, ``core_contacts``, ``turnarounds``, ``gaps``,
+        ``control_points``, ``facies_belts``, ``shorelines``, ``shoreline_bands``,
+        ``transects`` and ``shoreline_shifts``; a build uses those of the layers it has.
 
     Examples
     --------
@@ -682,85 +456,93 @@ def layer_styles(belts: Sequence[tuple[str, str, str]]) -> dict[str, str]:
     >>> sorted(styles)[:3]
     ['control_points', 'core_contacts', 'core_slices']
     """
+
+    def cats(kind: str, items, **symbol) -> tuple[Category, ...]:
+        return tuple(Category(v, label, Symbol(kind, c, **symbol)) for v, label, c in items)
+
+    def _stroke(width: float) -> dict:
+        return {"stroke_color": _CORE_STROKE, "stroke_width_mm": width}
+
     senses = [(s, _SENSE_LABELS[s], c) for s, c in SENSE_COLORS.items()]
-    turns = [(k, k.capitalize() + " surface (suggested)", c) for k, c in TURNAROUND_COLORS.items()]
-    return {
-        "cores": point_sld("cores", "#ffffff", size=7, title="Cores"),
-        "core_slices": categorized_point_sld(
-            "core_slices", "belt", belts, size=7, title="Belt logged at each core and slice"
+    turns = [(k, f"{k.capitalize()} surface (suggested)", c) for k, c in TURNAROUND_COLORS.items()]
+    marker = {"size_mm": 2.4, "stroke_color": _CORE_STROKE, "stroke_width_mm": 0.2}
+    styles = [
+        LayerStyle("cores", "Cores", symbol=Symbol("marker", "#ffffff", **marker)),
+        LayerStyle(
+            "core_slices",
+            "Belt logged at each core and slice",
+            field="belt",
+            categories=cats("marker", belts, **marker),
+            time=slice_time,
         ),
-        "core_contacts": point_sld(
+        LayerStyle(
             "core_contacts",
-            _CONTACT_COLOR,
-            size=8,
-            shape="triangle",
-            title="Contacts between logged belts",
+            "Contacts between logged belts",
+            symbol=Symbol(
+                "marker",
+                _CONTACT_COLOR,
+                size_mm=2.8,
+                shape="triangle",
+                stroke_color=_CORE_STROKE,
+                stroke_width_mm=0.2,
+            ),
         ),
-        "turnarounds": categorized_point_sld(
-            "turnarounds", "kind", turns, size=8, shape="square", title="Suggested turnarounds"
+        LayerStyle(
+            "turnarounds",
+            "Suggested turnarounds",
+            field="kind",
+            categories=cats("marker", turns, size_mm=2.6, shape="square", **_stroke(0.15)),
+            other=Symbol("marker", "#bdbdbd", size_mm=2.6, shape="square"),
+            time=slice_time,
         ),
-        "gaps": point_sld("gaps", _GAP_COLOR, size=6, shape="x", title="Gaps (no recovery)"),
-        # control points are interpretations, not cores: a different mark and colour
-        "control_points": point_sld(
-            "control_points", _CONTROL_COLOR, size=9, shape="star", title="Control points"
+        LayerStyle(
+            "gaps",
+            "Gaps (no recovery)",
+            symbol=Symbol("marker", _GAP_COLOR, size_mm=2.0, shape="x", stroke_color=_GAP_COLOR),
         ),
-        "facies_belts": categorized_fill_sld("facies_belts", "belt", belts, title="Facies belts"),
-        "shorelines": line_sld("shorelines", SHORELINE_COLOR, width=1.8, title="Shorelines"),
-        "shoreline_bands": fill_sld(
+        LayerStyle(
+            "control_points",
+            "Control points",
+            symbol=Symbol("marker", _CONTROL_COLOR, size_mm=3.0, shape="star", **_stroke(0.2)),
+            time=slice_time,
+        ),
+        LayerStyle(
+            "facies_belts",
+            "Facies belts",
+            field="belt",
+            categories=cats("fill", belts, stroke_color=_BELT_STROKE, stroke_width_mm=0.26),
+            time=slice_time,
+        ),
+        LayerStyle(
+            "shorelines",
+            "Shorelines",
+            symbol=Symbol("line", SHORELINE_COLOR, stroke_width_mm=0.6),
+            time=slice_time,
+        ),
+        LayerStyle(
             "shoreline_bands",
-            SHORELINE_COLOR,
-            opacity=0.3,
-            stroke_color=SHORELINE_COLOR,
-            stroke_width=0.4,
-            title="Shoreline P10-P90 band",
+            "Shoreline P10-P90 band",
+            symbol=Symbol(
+                "fill",
+                SHORELINE_COLOR,
+                opacity=0.3,
+                stroke_color=SHORELINE_COLOR,
+                stroke_width_mm=0.15,
+            ),
+            time=slice_time,
         ),
-        "transects": line_sld(
-            "transects", _TRANSECT_COLOR, width=0.8, dasharray=(6, 3), title="Transects"
+        LayerStyle(
+            "transects",
+            "Transects",
+            symbol=Symbol("line", _TRANSECT_COLOR, stroke_width_mm=0.3, dash_mm=(2.0, 1.0)),
         ),
-        "shoreline_shifts": categorized_line_sld(
-            "shoreline_shifts", "sense", senses, width=2.0, title="Shoreline shifts"
+        LayerStyle(
+            "shoreline_shifts",
+            "Shoreline shifts",
+            field="sense",
+            categories=cats("line", senses, stroke_width_mm=0.7),
+            other=Symbol("line", "#bdbdbd", stroke_width_mm=0.4, dash_mm=(1.5, 1.0)),
+            time=pair_time,
         ),
-    }
-
-
-def sld_layer_name(sld: str) -> str:
-    """The name of the layer an SLD document styles.
-
-    Parameters
-    ----------
-    sld : str
-        An SLD 1.1.0 (or 1.0.0) document.
-
-    Returns
-    -------
-    str
-        The ``Name`` of its first ``NamedLayer``.
-
-    Raises
-    ------
-    ValueError
-        The text is not well-formed XML, not an SLD document, or names no layer.
-
-    Examples
-    --------
-    >>> sld_layer_name(point_sld("cores", "#ffffff"))
-    'cores'
-    """
-    try:
-        root = ET.fromstring(sld.encode("utf-8") if isinstance(sld, str) else sld)
-    except ET.ParseError as exc:
-        raise ValueError(f"the style is not well-formed XML: {exc}") from exc
-    if root.tag != _sld("StyledLayerDescriptor"):
-        raise ValueError(
-            f"the style's root element is {root.tag!r}, not an SLD StyledLayerDescriptor"
-        )
-    named = root.find(_sld("NamedLayer"))
-    if named is None:
-        raise ValueError("the SLD document has no NamedLayer")
-    # SLD 1.1.0 puts the name in the se namespace, SLD 1.0.0 in the sld one.
-    name = named.find(_se("Name"))
-    if name is None:
-        name = named.find(_sld("Name"))
-    if name is None or not (name.text or "").strip():
-        raise ValueError("the SLD NamedLayer has no Name")
-    return name.text.strip()
+    ]
+    return {s.layer: s for s in styles}
