@@ -1034,18 +1034,23 @@ def write_build(
     overwrite: bool = False,
     figures: bool = True,
     report: bool = True,
+    figure_settings=None,
 ) -> Path:
     """Write a computed build into ``out`` atomically.
 
     The folder is written beside ``out`` and moved into place only when complete; an
-    existing build is replaced only with ``overwrite``.
+    existing build is replaced only with ``overwrite``. ``figure_settings``
+    (:class:`paleomap.figures.all.FigureSettings`) asks for vector figures and sets the
+    core panel's datum and spacing.
     """
     from .io.atomic import atomic_build_dir
     from .io.writers import write_deliverables
 
     out = Path(out)
     with atomic_build_dir(out, overwrite=overwrite) as tmp:
-        write_deliverables(result, tmp, figures=figures, report=report)
+        write_deliverables(
+            result, tmp, figures=figures, report=report, figure_settings=figure_settings
+        )
     return out
 
 
@@ -1056,6 +1061,7 @@ def build(
     overwrite: bool = False,
     figures: bool = True,
     report: bool = True,
+    figure_settings=None,
 ) -> BuildResult:
     """Compute every map of ``project`` and write the build folder ``out``.
 
@@ -1075,6 +1081,13 @@ def build(
         check_build_target(out, overwrite=overwrite, inputs=inputs)
         result = compute(project)
         t = time.perf_counter()
-        write_build(result, out, overwrite=overwrite, figures=figures, report=report)
+        write_build(
+            result,
+            out,
+            overwrite=overwrite,
+            figures=figures,
+            report=report,
+            figure_settings=figure_settings,
+        )
     result.timings["writing"] = time.perf_counter() - t
     return result

@@ -53,9 +53,18 @@ def probability_name(slice_name: str, belt_id: str) -> str:
 
 
 def write_deliverables(
-    result: BuildResult, folder: Path, *, figures: bool = True, report: bool = True
+    result: BuildResult,
+    folder: Path,
+    *,
+    figures: bool = True,
+    report: bool = True,
+    figure_settings=None,
 ) -> None:
-    """Write every deliverable of ``result`` into ``folder``."""
+    """Write every deliverable of ``result`` into ``folder``.
+
+    ``figure_settings`` (:class:`paleomap.figures.all.FigureSettings`) asks for vector
+    figures and sets the core panel's datum and spacing.
+    """
     from ..layers import GEOMETRY_TYPES, build_layers
 
     folder = Path(folder)
@@ -85,7 +94,7 @@ def write_deliverables(
     if figures:
         from ..figures.all import draw_all
 
-        draw_all(result, folder / "figures")
+        draw_all(result, folder / "figures", settings=figure_settings)
     if report:
         from ..report import write_report
 
