@@ -60,9 +60,10 @@ _RC = {
     "text.usetex": False,
 }
 
-_LONGEST_TEXT_LINE = 90
-"""Characters of one line of figure text kept before an ellipsis (a 240-character
-surface name would otherwise push the plot off the figure)."""
+_LONGEST_TEXT_LINE = 200
+"""Characters of one line of figure text kept before an ellipsis: a guard against a
+runaway line (the figures shorten names themselves; an axis label that names a
+transect and its spacing runs to about 120 characters)."""
 
 
 def figure_style():
