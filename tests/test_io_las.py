@@ -361,8 +361,8 @@ def test_a_hand_written_las_2_file(tmp_path):
     (tmp_path / "logs").mkdir()
     (tmp_path / "logs" / "hand.las").write_text(_HAND_WRITTEN)
     from paleomap.errors import ProblemLog
-    from paleomap.io.assemble import Origins
     from paleomap.io.las import read_logs
+    from paleomap.io.origins import Origins
     from paleomap.io.sources import InputSources
 
     sources = InputSources(
@@ -424,8 +424,8 @@ FACIES.      : FACIES CODE
 
 def _read_one_file(tmp_path, text: str, **settings):
     from paleomap.errors import ProblemLog
-    from paleomap.io.assemble import Origins
     from paleomap.io.las import read_logs
+    from paleomap.io.origins import Origins
     from paleomap.io.sources import InputSources
 
     (tmp_path / "logs").mkdir(exist_ok=True)
