@@ -137,6 +137,7 @@ def read_tables(cfg, root: Path, project_file: str, log: ProblemLog, *, source, 
         out.picks = out.picks[keep].reset_index(drop=True)
     if wells is not None and cfg.cores is not None and out.cores is not None:
         out.cores = _datum_from_wells(out.cores, wells)
+        _wells_not_in_cores(out, wells, names["cores"], log)
     out.files = {k: v for k, v in names.items() if v is not None}
     if sources.depth_reference == "log" and out.cores is not None:
         _from_log_depth(out, log)
@@ -180,6 +181,32 @@ def _datum_from_wells(cores: pd.DataFrame, wells: pd.DataFrame) -> pd.DataFrame:
             for cid, v in zip(cores["core_id"], cores[column], strict=True)
         ]
     return cores
+
+
+def _wells_not_in_cores(out: Tables, wells: pd.DataFrame, cores_name: str, log) -> None:
+    """Report once, at its WELL mnemonic, each LAS well the cores table lacks.
+
+    Its intervals are dropped: the validation would name each of them, at lines of no file.
+    """
+    known = {str(c).strip() for c in out.cores["core_id"]}
+    missing = {}
+    for cid, line in zip(wells["core_id"], wells["line"], strict=True):
+        if cid not in known:
+            missing[cid] = out.origins.where(wells.attrs["name"], int(line))
+    for cid, where in missing.items():
+        anchor = where.columns.get("core_id", where) if where is not None else None
+        log.error(
+            anchor.file if anchor else wells.attrs["name"],
+            anchor.line if anchor else None,
+            None,
+            cid,
+            f"is not in {cores_name}",
+            "add the well to the cores table (it gives the positions) or correct its id",
+            place=anchor.place if anchor else None,
+        )
+    if missing and out.intervals is not None:
+        keep = [str(c).strip() not in missing for c in out.intervals["core_id"]]
+        out.intervals = out.intervals[keep].reset_index(drop=True)
 
 
 def _number(value) -> float | None:

@@ -74,6 +74,10 @@ class Origins:
         """One row of a table made from a LAS or AGS4 file, under a line number of its own."""
         self._rows.setdefault(table, {})[line] = where
 
+    def where(self, table: str, line: int) -> Where | None:
+        """Where a row of a table made from a LAS or AGS4 file came from."""
+        return self._rows.get(table, {}).get(line)
+
     def relocate(self, log: ProblemLog) -> None:
         """Rewrite the log's problems to name the place in the user's file."""
         log.errors[:] = [self.relocated(p) for p in log.errors]
