@@ -121,7 +121,11 @@ def shoreline_scores(result, basin, step_m: float = 50.0) -> pd.DataFrame:
 
 def rate_scores(result, basin) -> pd.DataFrame:
     """Per slice pair: the median transect rate against the true rate on the same
-    transects, and its relative error; the sense against the true sense."""
+    transects, and its relative error; the sense against the true sense.
+
+    ``sense_ok`` is True where the sense is the true one; ``sense_wrong`` where the map
+    claims the opposite direction (an ``uncertain`` sense, whose P10-P90 spans zero, is
+    neither: it does not overstate)."""
     kyr = result.project.kyr_per_age_unit
     lines = [t.line for t in result.transects]
     rows = []
@@ -143,6 +147,7 @@ def rate_scores(result, basin) -> pd.DataFrame:
                 sense=r.sense,
                 true_sense=true_sense,
                 sense_ok=r.sense == true_sense,
+                sense_wrong=r.sense in ("transgression", "regression") and r.sense != true_sense,
             )
         )
     return pd.DataFrame(rows)

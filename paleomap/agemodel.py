@@ -23,6 +23,13 @@ that has not), and a depth that falls on a contact between two intervals reads t
 interval just above it (:meth:`paleomap.cores.Core.interval_at`): the sediment resting on
 the surface is what was being laid down at the surface's age.
 
+An **erosional** surface is different: what rests on it was laid down after the erosion,
+and what lay at the surface when it formed was cut away. A slice at an erosional surface
+therefore reads, in each core that picks it, the deposit just **beneath** the pick: the
+youngest record the erosion left, older than the surface by the missing time. The build
+notes that such a slice maps the preserved record beneath the surface, not the
+landscape at its age (``docs/inputs.md``; ``read_beneath_erosion`` in its quality row).
+
 Examples
 --------
 Two surfaces, 10 m at 100 ka and 30 m at 300 ka (common practice; see REFERENCES.md):
@@ -413,10 +420,17 @@ def sample_slices(
                 if pick is not None:
                     depths[j] = pick
         per_slice_depths.append(depths)
-    ranks = [
-        _ranks_at(core, depths)
-        for core, depths in zip(project.cores, per_slice_depths, strict=True)
-    ]
+    # at an erosional surface's pick, read the deposit beneath it: a depth a hair below
+    # the pick reads the interval under a contact (Core.interval_at reads the one above)
+    erosional = {s.name for s in project.surfaces if s.erosional}
+    ranks = []
+    for core, depths in zip(project.cores, per_slice_depths, strict=True):
+        read = depths.copy()
+        span = max(abs(core.base - core.top), 1.0) if core.intervals else 1.0
+        for j, sl in enumerate(slices):
+            if sl.surface in erosional and core.pick_depth(sl.surface) is not None:
+                read[j] = depths[j] + 1e-9 * span
+        ranks.append(_ranks_at(core, read))
     for j, sl in enumerate(slices):
         for c, core in enumerate(project.cores):
             r = int(ranks[c][j])

@@ -19,6 +19,7 @@ from typing import TYPE_CHECKING
 import numpy as np
 
 from .errors import ProblemLog
+from .scheme import name_key
 
 if TYPE_CHECKING:  # only for annotations: project.py imports this module
     import pandas as pd
@@ -201,13 +202,13 @@ def build_cores(
     >>> cores = pd.DataFrame({"core_id": ["A"], "easting": [0.0], "northing": [0.0]})
     >>> intervals = pd.DataFrame(
     ...     {"core_id": ["A", "A"], "top": [0.0, 4.0], "base": [4.0, 9.0],
-    ...      "facies": ["clay", "Fine Sand"]})
+    ...      "facies": ["offshore", "Upper Shoreface"]})
     >>> picks = pd.DataFrame({"core_id": ["A", "A"], "surface": ["s1", "s2"],
     ...                       "depth": [1.0, 8.0]})
-    >>> (core,) = build_cores(cores, intervals, picks, builtin_scheme("siliciclastic"),
+    >>> (core,) = build_cores(cores, intervals, picks, builtin_scheme("shoreface_shelf"),
     ...                       [Surface("s1", 100.0), Surface("s2", 200.0)])
     >>> [iv.rank for iv in core.intervals], core.pick_depth("s2")
-    ([4, 2], 8.0)
+    ([5, 3], 8.0)
     """
     own_log = log is None
     log = ProblemLog() if log is None else log
@@ -310,7 +311,6 @@ def build_cores(
     bad_iv_cores: set[str] = set()
     orphans: dict[tuple[str, str], list[int | None]] = {}
     unknown: dict[str, tuple[str, list[int | None]]] = {}
-    known_ids = list(scheme.ids) if scheme is not None else []
     for row in _rows(intervals):
         cid = _text(row.get("core_id"))
         line = row["line"]
@@ -353,7 +353,7 @@ def build_cores(
             r = scheme.rank(facies)
             if r is None:
                 # One message per unknown name, so a typo repeated on many lines is one fix.
-                unknown.setdefault(facies.lower(), (facies, []))[1].append(line)
+                unknown.setdefault(name_key(facies), (facies, []))[1].append(line)
                 ok = False
             else:
                 rank = r
@@ -363,13 +363,16 @@ def build_cores(
         by_core[cid].append(Interval(float(top), float(base), rank, facies, line))
 
     for facies, lines in unknown.values():
+        close = scheme.suggest(facies)
+        hint = f"did you mean {' or '.join(repr(c) for c in close)}? " if close else ""
         log.error(
             f_iv,
             lines[0],
             "facies",
             facies,
             f"is not a facies of the {scheme.name!r} scheme{_on_lines(lines)}",
-            f"known ids: {known_ids} (or their aliases, any case)",
+            hint + f"accepted names: {', '.join(scheme.names())} (case, spaces, hyphens and "
+            "underscores ignored; paleomap schemes lists them by belt)",
         )
 
     for cid, ivs in by_core.items():

@@ -20,12 +20,15 @@ import shapely
 if TYPE_CHECKING:
     from .pipeline import BuildResult
 
-__all__ = ["GEOMETRY_TYPES", "LAYER_ORDER", "build_layers"]
+__all__ = ["GEOMETRY_TYPES", "LAYER_ORDER", "TURNAROUND_KINDS", "build_layers"]
 
 LAYER_ORDER = (
     "cores",
     "core_slices",
     "core_contacts",
+    "turnarounds",
+    "gaps",
+    "control_points",
     "facies_belts",
     "shorelines",
     "shoreline_bands",
@@ -42,6 +45,9 @@ GEOMETRY_TYPES = {
     "cores": "Point",
     "core_slices": "Point",
     "core_contacts": "Point",
+    "turnarounds": "Point",
+    "gaps": "Point",
+    "control_points": "Point",
     "facies_belts": "MultiPolygon",
     "shorelines": "MultiLineString",
     "shoreline_bands": "MultiPolygon",
@@ -70,6 +76,91 @@ def _multi(geom, kind):
     return geom
 
 
+TURNAROUND_KINDS = {"MFS": "maximum flooding", "MRS": "maximum regressive"}
+"""The ``kind`` written in the ``turnarounds`` layer for each suggested turnaround."""
+
+_TURNAROUND_FIELDS = (
+    "core_id",
+    "kind",
+    "depth",
+    "depth_top",
+    "depth_base",
+    "age",
+    "confidence",
+    "cycle",
+    "belt",
+    "change_below_ranks",
+    "change_above_ranks",
+    "nearest_surface",
+    "surface_distance",
+)
+_GAP_FIELDS = ("core_id", "top", "base", "thickness", "lower", "upper", "jump_ranks")
+
+
+def _depth_named(frame: pd.DataFrame, unit: str, names) -> pd.DataFrame:
+    """Depth fields renamed with the project's depth unit (``depth`` -> ``depth_m``)."""
+    return frame.rename(columns={n: f"{n}_{unit}" for n in names if n in frame.columns})
+
+
+def _turnaround_layer(reading, unit: str, crs) -> gpd.GeoDataFrame:
+    """Every suggested maximum flooding / maximum regressive surface, one point each."""
+    depth_fields = ("depth", "depth_top", "depth_base", "surface_distance")
+    if reading is None or not len(reading.turnarounds):
+        empty = _depth_named(pd.DataFrame(columns=list(_TURNAROUND_FIELDS)), unit, depth_fields)
+        return _gdf([], list(empty.columns), crs)
+    t = reading.turnarounds
+    frame = t.rename(
+        columns={"change_below": "change_below_ranks", "change_above": "change_above_ranks"}
+    )
+    frame = frame.assign(kind=frame["kind"].map(TURNAROUND_KINDS))[list(_TURNAROUND_FIELDS)]
+    return gpd.GeoDataFrame(
+        _depth_named(frame.reset_index(drop=True), unit, depth_fields),
+        geometry=shapely.points(t["easting"].to_numpy(), t["northing"].to_numpy()),
+        crs=crs,
+    )
+
+
+def _gap_layer(reading, unit: str, crs) -> gpd.GeoDataFrame:
+    """Every unrecovered depth range (no record between two logged intervals)."""
+    depth_fields = ("top", "base", "thickness")
+    if reading is None or not len(reading.gaps):
+        empty = _depth_named(pd.DataFrame(columns=list(_GAP_FIELDS)), unit, depth_fields)
+        return _gdf([], list(empty.columns), crs)
+    g = reading.gaps
+    frame = g.rename(columns={"jump": "jump_ranks"})[list(_GAP_FIELDS)]
+    return gpd.GeoDataFrame(
+        _depth_named(frame.reset_index(drop=True), unit, depth_fields),
+        geometry=shapely.points(g["easting"].to_numpy(), g["northing"].to_numpy()),
+        crs=crs,
+    )
+
+
+_CONTROL_FIELDS = ("point_id", "slice", "age", "belt", "rank", "weight", "imposed", "source")
+
+
+def _control_layer(result, crs) -> gpd.GeoDataFrame:
+    """The user's control points at the slices they were used in: interpretations, kept
+    apart from the cores (their own layer, ``source = "control point"``)."""
+    scheme = result.project.scheme
+    rows = []
+    for m in result.slice_maps:
+        for pid, e, n, rank, weight in getattr(m, "control", ()):
+            rows.append(
+                dict(
+                    point_id=pid,
+                    slice=m.slice.name,
+                    age=m.slice.age,
+                    belt=scheme.ids[rank],
+                    rank=rank,
+                    weight=weight,
+                    imposed=weight >= 1.0,
+                    source="control point",
+                    geometry=shapely.Point(e, n),
+                )
+            )
+    return _gdf(rows, list(_CONTROL_FIELDS), crs)
+
+
 def build_layers(result: BuildResult) -> dict[str, pd.DataFrame]:
     """Every layer and table of ``paleomap.gpkg`` from a finished build."""
     project = result.project
@@ -90,10 +181,13 @@ def build_layers(result: BuildResult) -> dict[str, pd.DataFrame]:
         }
     )
     if reading is not None and len(reading.cores):
+        # the reading repeats the position and the interval count: keep one of each, so
+        # no join leaves a pair of _x/_y columns
         extra = reading.cores.drop(
-            columns=[c for c in ("easting", "northing") if c in reading.cores.columns]
+            columns=[c for c in reading.cores.columns if c in cores.columns and c != "core_id"]
+            + [c for c in ("easting", "northing") if c in reading.cores.columns]
         )
-        cores = cores.merge(extra, on="core_id", how="left")
+        cores = cores.merge(extra, on="core_id", how="left", validate="one_to_one")
     cores_gdf = gpd.GeoDataFrame(
         cores,
         geometry=shapely.points(
@@ -119,8 +213,11 @@ def build_layers(result: BuildResult) -> dict[str, pd.DataFrame]:
     else:
         contacts = _gdf([], ["core_id", "depth", "lower", "upper", "jump", "flag"], crs)
 
+    turnarounds = _turnaround_layer(reading, project.depth_unit, crs)
+    control = _control_layer(result, crs)
+    gaps = _gap_layer(reading, project.depth_unit, crs)
+
     belt_rows, line_rows, band_rows, quality_rows = [], [], [], []
-    boundary = scheme.boundary_name(scheme.tracked_boundary)
     for m in result.slice_maps:
         for rank, geom in enumerate(m.polygons):
             if geom.is_empty:
@@ -137,30 +234,36 @@ def build_layers(result: BuildResult) -> dict[str, pd.DataFrame]:
                     geometry=_multi(geom, shapely.MultiPolygon),
                 )
             )
-        line_rows.append(
-            dict(
-                slice=m.slice.name,
-                age=m.slice.age,
-                boundary=boundary,
-                length_km=m.shoreline.length / 1e3,
-                geometry=_multi(m.shoreline, shapely.MultiLineString),
+        # every tracked boundary, the shoreline (or the tracked one) first, each under
+        # its own name and what a reader calls it
+        for b in scheme.tracked_boundaries:
+            bd = m.boundary(b)
+            line_rows.append(
+                dict(
+                    slice=m.slice.name,
+                    age=m.slice.age,
+                    boundary=scheme.boundary_name(b),
+                    boundary_label=scheme.boundary_label(b),
+                    length_km=bd["line"].length / 1e3,
+                    geometry=_multi(bd["line"], shapely.MultiLineString),
+                )
             )
-        )
-        band_rows.append(
-            dict(
-                slice=m.slice.name,
-                age=m.slice.age,
-                boundary=boundary,
-                area_km2=m.band.area / 1e6,
-                geometry=_multi(m.band, shapely.MultiPolygon),
+            band_rows.append(
+                dict(
+                    slice=m.slice.name,
+                    age=m.slice.age,
+                    boundary=scheme.boundary_name(b),
+                    boundary_label=scheme.boundary_label(b),
+                    area_km2=bd["band"].area / 1e6,
+                    geometry=_multi(bd["band"], shapely.MultiPolygon),
+                )
             )
-        )
         quality_rows.append(dict(slice=m.slice.name, age=m.slice.age, **m.quality))
     # A slice with no boundary in the mapped area keeps its row (with an empty line),
     # so the GIS and the report show that it was looked for and not found.
     facies_belts = _gdf(belt_rows, ["slice", "age", "belt", "rank", "marine", "area_km2"], crs)
-    shorelines = _gdf(line_rows, ["slice", "age", "boundary", "length_km"], crs)
-    bands = _gdf(band_rows, ["slice", "age", "boundary", "area_km2"], crs)
+    shorelines = _gdf(line_rows, ["slice", "age", "boundary", "boundary_label", "length_km"], crs)
+    bands = _gdf(band_rows, ["slice", "age", "boundary", "boundary_label", "area_km2"], crs)
     quality = pd.DataFrame(quality_rows)
 
     transects = _gdf(
@@ -178,8 +281,17 @@ def build_layers(result: BuildResult) -> dict[str, pd.DataFrame]:
         ["transect", "azimuth_deg", "length_km", "source", "lsq_rate_m_per_kyr"],
         crs,
     )
-    # result.shifts has the layer's columns already (empty builds included)
-    shifts = gpd.GeoDataFrame(result.shifts.copy(), geometry="geometry", crs=crs)
+    # result.shifts has the layer's columns already (empty builds included); a further
+    # tracked boundary's rows follow the tracked one's
+    other = getattr(result, "other_boundaries", {}) or {}
+
+    def both(frame, key):
+        extra = other.get(key)
+        if extra is None or not len(extra):
+            return frame.reset_index(drop=True)
+        return pd.concat([frame, extra], ignore_index=True)
+
+    shifts = gpd.GeoDataFrame(both(result.shifts, "shifts"), geometry="geometry", crs=crs)
 
     run_info = pd.DataFrame(
         [
@@ -187,17 +299,34 @@ def build_layers(result: BuildResult) -> dict[str, pd.DataFrame]:
             for k, v in result.run_info.items()
         ]
     )
+    # units in every field name: depths carry the project's depth unit, rank counts "ranks"
+    u = project.depth_unit
+    cores_gdf = _depth_named(cores_gdf, u, ("elevation", "mfs_depth", "mrs_depth")).rename(
+        columns={
+            "top_depth": f"top_depth_{u}",
+            "base_depth": f"base_depth_{u}",
+            "rank_change": "rank_change_ranks",
+            "slope_rank_per_m": "slope_ranks_per_m",
+        }
+    )
+    core_slices = _depth_named(core_slices, u, ("depth",))
+    contacts = _depth_named(contacts, u, ("depth", "surface_distance")).rename(
+        columns={"jump": "jump_ranks"}
+    )
     return {
         "cores": cores_gdf,
         "core_slices": core_slices,
         "core_contacts": contacts,
+        "turnarounds": turnarounds,
+        "gaps": gaps,
+        "control_points": control,
         "facies_belts": facies_belts,
         "shorelines": shorelines,
         "shoreline_bands": bands,
         "transects": transects,
         "shoreline_shifts": shifts,
-        "shoreline_positions": result.positions.reset_index(drop=True),
-        "slice_pairs": result.slice_pairs.reset_index(drop=True),
+        "shoreline_positions": both(result.positions, "positions"),
+        "slice_pairs": both(result.slice_pairs, "slice_pairs"),
         "slice_quality": quality,
         "run_info": run_info,
     }

@@ -12,19 +12,42 @@ Position along a transect
     cut obliquely) it is the single-crossing position that leaves the same length on
     each side, which moves continuously as the map changes and never jumps between
     crossings. The number of crossings is reported beside it. A transect that never
-    reaches the boundary has no position (NaN) for that slice.
+    reaches the boundary has no position (NaN) for that slice, but the side is known:
+    where the whole transect lies on the distal side the boundary is **landward** of the
+    mapped area (its position is at most 0), where it lies wholly on the proximal side
+    the boundary is **basinward** of it (at least the transect's length).
+
+Bounds
+    A shift between a slice whose boundary crosses the transect and one whose boundary is
+    outside the mapped area is known only as a bound: with the boundary landward of the
+    area at the younger slice, the shoreline moved *at least* as far landward as the
+    older position (the distance to the landward end). Such a shift is reported as that
+    bound, ``shift_bound = "at_least"``, with the side in ``older_outside`` /
+    ``younger_outside``; its P10-P90 range is not given (NaN). So no reported distance
+    exceeds the transect, and no transect exceeds the mapped area.
 
 Uncertainty
-    Along a transect, the probability of the distal side is the cumulative distribution
-    of the boundary's position, so the P10 and P90 positions are the lengths on which
-    that probability is below 0.1 and below 0.9. The shift's and the rate's P10-P90
+    P10 and P90 (``*_low*`` and ``*_high*`` fields): the values that 10 % and 90 % of the
+    probability lie below (some readers use the opposite convention, the values exceeded
+    with 10 % and 90 % probability; here the P10 is always the lower one). Along a
+    transect, the probability of the distal side is the cumulative distribution of the
+    boundary's position, so the P10 and P90 positions are the lengths on which that
+    probability is below 0.1 and below 0.9. The shift's and the rate's P10-P90
     ranges combine both slices' position ranges and the surfaces' ``age_sd`` by Monte
     Carlo, each position drawn from a split normal through its P10, median and P90.
+
+Sense
+    ``"transgression"`` (landward) or ``"regression"`` (seaward) where the rate's
+    magnitude exceeds the stillstand tolerance, ``"stillstand"`` where it does not, and
+    ``"uncertain"`` wherever the P10-P90 range of the shift spans zero: the map cannot
+    tell the direction.
 
 Examples
 --------
 >>> classify_sense(np.array([2.0, -0.05, -3.0]), tolerance=0.1)
 ['transgression', 'stillstand', 'regression']
+>>> classify_sense([2.0], 0.1, low=[-50.0], high=[400.0])
+['uncertain']
 """
 
 from __future__ import annotations
@@ -36,6 +59,7 @@ import numpy as np
 import shapely
 
 __all__ = [
+    "OUTSIDE_SIDES",
     "TransectPosition",
     "area_change",
     "classify_sense",
@@ -50,6 +74,10 @@ __all__ = [
 log = logging.getLogger(__name__)
 
 _Z90 = 1.2815515655446004  # standard normal quantile at 0.9
+
+OUTSIDE_SIDES = ("landward", "basinward")
+"""Where a boundary that does not cross a transect lies: beyond its landward end or
+beyond its basinward end."""
 
 
 def regional_dip_azimuth(latent_grids, grid) -> float:
@@ -165,6 +193,10 @@ class TransectPosition:
     low_m: float
     high_m: float
     crossings: int
+    outside: str = ""
+    """``""`` where the boundary crosses the transect, else one of :data:`OUTSIDE_SIDES`."""
+    length_m: float = float("nan")
+    """The transect's length (m)."""
 
 
 def transect_position(
@@ -194,7 +226,8 @@ def transect_position(
     proximal = z < threshold
     crossings = int(np.count_nonzero(np.diff(proximal.astype(int))))
     if crossings == 0:
-        return TransectPosition(np.nan, np.nan, np.nan, 0)
+        side = "basinward" if bool(proximal.all()) else "landward"
+        return TransectPosition(np.nan, np.nan, np.nan, 0, side, float(length))
     ds = length / (n - 1)
 
     def length_where(mask):
@@ -206,7 +239,7 @@ def transect_position(
     pos = length_where(proximal)
     low = length_where(p < 0.1)
     high = length_where(p < 0.9)
-    return TransectPosition(pos, min(low, pos), max(high, pos), crossings)
+    return TransectPosition(pos, min(low, pos), max(high, pos), crossings, "", float(length))
 
 
 def _split_normal(rng, median, low, high, size):
@@ -229,20 +262,45 @@ def shift_statistics(
 ) -> dict:
     """Signed shift (positive landward) and rate between two slices, with P10-P90.
 
-    Returns a dict with shift_m, shift_low_m, shift_high_m, rate_m_per_kyr, rate_low,
-    rate_high (NaN where either position is undefined).
+    Returns a dict with shift_m, shift_low_m, shift_high_m, rate_m_per_kyr,
+    rate_low_m_per_kyr, rate_high_m_per_kyr, shift_bound, older_outside and
+    younger_outside. Where the boundary is outside the transect at one slice (or on
+    opposite sides at the two), the shift is the bound the other position gives
+    (``shift_bound = "at_least"``: at least that far, in that direction) and its P10-P90
+    range is NaN; where it is outside on the same side at both, or either position is
+    unknown, every number is NaN.
+
+    Examples
+    --------
+    >>> inside = TransectPosition(3000.0, 2500.0, 3500.0, 1, "", 10000.0)
+    >>> gone = TransectPosition(np.nan, np.nan, np.nan, 0, "landward", 10000.0)
+    >>> s = shift_statistics(inside, gone, 20.0, 10.0)
+    >>> s["shift_m"], s["shift_bound"], s["younger_outside"], s["rate_m_per_kyr"]
+    (3000.0, 'at_least', 'landward', 300.0)
     """
+    dt = older_age_kyr - younger_age_kyr
     nan = dict(
         shift_m=np.nan,
         shift_low_m=np.nan,
         shift_high_m=np.nan,
         rate_m_per_kyr=np.nan,
-        rate_low=np.nan,
-        rate_high=np.nan,
+        rate_low_m_per_kyr=np.nan,
+        rate_high_m_per_kyr=np.nan,
+        shift_bound="",
+        older_outside=older.outside,
+        younger_outside=younger.outside,
     )
+    if older.outside or younger.outside:
+        bound = _bound(older, younger)
+        if np.isfinite(bound):
+            nan.update(
+                shift_m=bound,
+                rate_m_per_kyr=float(bound / dt) if dt > 0 else np.nan,
+                shift_bound="at_least",
+            )
+        return nan
     if not (np.isfinite(older.position_m) and np.isfinite(younger.position_m)):
         return nan
-    dt = older_age_kyr - younger_age_kyr
     shift = older.position_m - younger.position_m
     rng = np.random.default_rng(seed)
     po = _split_normal(rng, older.position_m, older.low_m, older.high_m, draws)
@@ -259,9 +317,39 @@ def shift_statistics(
         shift_low_m=float(np.percentile(s, 10)),
         shift_high_m=float(np.percentile(s, 90)),
         rate_m_per_kyr=float(shift / dt) if dt > 0 else np.nan,
-        rate_low=float(np.percentile(rate, 10)),
-        rate_high=float(np.percentile(rate, 90)),
+        rate_low_m_per_kyr=float(np.percentile(rate, 10)),
+        rate_high_m_per_kyr=float(np.percentile(rate, 90)),
+        shift_bound="",
+        older_outside="",
+        younger_outside="",
     )
+
+
+def _bound(older: TransectPosition, younger: TransectPosition) -> float:
+    """The signed shift bound where the boundary leaves the transect at one slice or both.
+
+    Positions run from 0 (landward end) to the length; outside landward means at most 0,
+    basinward at least the length. The shift (older minus younger position) is then at
+    least (landward, positive) or at most (seaward, negative) the value returned; NaN
+    where nothing is known (both outside on one side, or a position missing).
+    """
+
+    def edge(p: TransectPosition) -> float:
+        if p.outside == "landward":
+            return 0.0
+        if p.outside == "basinward":
+            return p.length_m
+        return p.position_m
+
+    if older.outside and older.outside == younger.outside:
+        return float("nan")
+    o, y = edge(older), edge(younger)
+    if not (np.isfinite(o) and np.isfinite(y)):
+        return float("nan")
+    # landward at the younger slice or basinward at the older: the shift is at least o - y
+    # (landward); the other cases give at most o - y (seaward); either way o - y is the
+    # bound nearest zero, so its magnitude never overstates
+    return float(o - y)
 
 
 def lsq_rate(ages_kyr, positions_m) -> float:
@@ -279,13 +367,19 @@ def lsq_rate(ages_kyr, positions_m) -> float:
     return float(np.polyfit(a[ok], p[ok], 1)[0])
 
 
-def classify_sense(rates, tolerance: float) -> list[str]:
+def classify_sense(rates, tolerance: float, low=None, high=None) -> list[str]:
     """``transgression`` above ``tolerance`` m/kyr, ``regression`` below minus it, else
-    ``stillstand``; NaN rates give ``""``."""
+    ``stillstand``; ``uncertain`` where the P10-P90 range ``low``-``high`` (of the
+    shift or of the rate) spans zero; NaN rates give ``""``."""
+    rates = np.atleast_1d(np.asarray(rates, dtype=float))
+    lo = np.full(rates.shape, np.nan) if low is None else np.atleast_1d(np.asarray(low, float))
+    hi = np.full(rates.shape, np.nan) if high is None else np.atleast_1d(np.asarray(high, float))
     out = []
-    for r in np.atleast_1d(rates):
+    for r, a, b in zip(rates, lo, hi, strict=True):
         if not np.isfinite(r):
             out.append("")
+        elif np.isfinite(a) and np.isfinite(b) and a < 0 < b:
+            out.append("uncertain")
         elif r > tolerance:
             out.append("transgression")
         elif r < -tolerance:

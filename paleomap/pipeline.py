@@ -94,6 +94,16 @@ class SliceMap:
     distal: object
     stored_probabilities: np.ndarray | None = None
     quality: dict = field(default_factory=dict)
+    others: dict = field(default_factory=dict)
+    """Every further tracked boundary ``b`` -> ``{"line", "band", "distal"}``."""
+    control: tuple = ()
+    """Control points used at this slice: (point_id, easting, northing, rank, weight)."""
+
+    def boundary(self, b: int) -> dict:
+        """``{"line", "band", "distal"}`` of tracked boundary ``b``."""
+        if b == self.tracked_boundary:
+            return {"line": self.shoreline, "band": self.band, "distal": self.distal}
+        return self.others[b]
 
     def mapped_belt(self) -> np.ndarray:
         """Belt rank of each cell from the mean latent (the class the polygons show)."""
@@ -111,21 +121,26 @@ class SliceMap:
     @property
     def distal_probability(self) -> np.ndarray:
         """Probability of the distal side of the tracked boundary, (rows, cols) float32."""
-        b = self.tracked_boundary
+        return self.distal_probability_of(self.tracked_boundary)
+
+    def distal_probability_of(self, b: int) -> np.ndarray:
+        """Probability of the distal side of boundary ``b``, (rows, cols) float32."""
         if self.stored_probabilities is not None:
             return self.stored_probabilities[b:].sum(axis=0)
         from .field.normalcdf import distal_probability
 
         return distal_probability(self.latent, self.latent_sd, self.thresholds[b - 1])
 
-    def distal_probability_at(self, easting, northing) -> np.ndarray:
-        """:attr:`distal_probability` interpolated at points as its contouring nodes
-        would give it, computed at the points' surrounding cells only."""
+    def distal_probability_at(self, easting, northing, b: int | None = None) -> np.ndarray:
+        """:attr:`distal_probability` (of boundary ``b``, default the tracked one)
+        interpolated at points as its contouring nodes would give it, computed at the
+        points' surrounding cells only."""
+        b = self.tracked_boundary if b is None else b
         if self.stored_probabilities is not None:
-            return node_field(self.distal_probability, self.grid).at(easting, northing)
+            return node_field(self.distal_probability_of(b), self.grid).at(easting, northing)
         from .field.normalcdf import distal_probability
 
-        t = self.thresholds[self.tracked_boundary - 1]
+        t = self.thresholds[b - 1]
 
         def cells(rows, cols):
             return distal_probability(self.latent[rows, cols], self.latent_sd[rows, cols], t)
@@ -168,6 +183,9 @@ class BuildResult:
     run_info: dict
     timings: dict
     age_models: dict = field(default_factory=dict)
+    other_boundaries: dict = field(default_factory=dict)
+    """``positions``, ``shifts`` and ``slice_pairs`` of the further tracked boundaries
+    (a carbonate ramp's shoal edge), with the main tables' columns."""
 
 
 class _Stopwatch:
@@ -200,12 +218,18 @@ def compute(project: Project) -> BuildResult:
     """
     sw = _Stopwatch()
     scheme = project.scheme
+    beneath = _note_erosional_slices(project)
     with sw.stage("age models"):
         age_models = build_age_models(project)
         samples = sample_slices(project, age_models=age_models)
     with sw.stage("grid"):
-        e = np.array([c.easting for c in project.cores])
-        n = np.array([c.northing for c in project.cores])
+        # the mapped area covers the control points too: they are data where they apply
+        e = np.array(
+            [c.easting for c in project.cores] + [p.easting for p in project.control_points]
+        )
+        n = np.array(
+            [c.northing for c in project.cores] + [p.northing for p in project.control_points]
+        )
         grid = make_grid(
             e,
             n,
@@ -216,6 +240,10 @@ def compute(project: Project) -> BuildResult:
         )
     with sw.stage("field"):
         fields = _map_fields(project, samples, grid)
+        if any(p.weight < 1 for p in project.control_points):
+            # a weight below 1: mix with the map made without the control points
+            bare = {sl.name: fr for sl, fr in _map_fields(project, samples, grid, False)}
+            fields = [(sl, _mixed(project, sl, fr, bare.get(sl.name))) for sl, fr in fields]
     if not fields:
         raise InputError(
             [
@@ -233,10 +261,22 @@ def compute(project: Project) -> BuildResult:
     b = scheme.tracked_boundary
     with sw.stage("belts"):
         maps = _belt_maps(project, grid, fields, b)
+        for m in maps:
+            m.quality["read_beneath_erosion"] = m.slice.name in beneath
     with sw.stage("shorelines"):
         dip = regional_dip_azimuth([m.latent for m in maps], grid) if maps else 90.0
-        transects, positions = _positions(project, grid, maps, b, dip)
-        shifts, pairs, transects = _shifts(project, maps, transects, positions, dip)
+        transects, positions = _positions(project, grid, maps, dip)
+        shifts, pairs, transects = _shifts(project, grid, maps, transects, positions, dip)
+        # the main tables are the tracked boundary's; further boundaries ride beside them
+        name = scheme.boundary_name(b)
+        others = {
+            "positions": positions[positions["boundary"] != name].reset_index(drop=True),
+            "shifts": shifts[shifts["boundary"] != name].reset_index(drop=True),
+            "slice_pairs": pairs[pairs["boundary"] != name].reset_index(drop=True),
+        }
+        positions = positions[positions["boundary"] == name].reset_index(drop=True)
+        shifts = shifts[shifts["boundary"] == name].reset_index(drop=True)
+        pairs = pairs[pairs["boundary"] == name].reset_index(drop=True)
     with sw.stage("core reading"):
         reading = _read_cores(project, age_models, pairs)
         if reading is not None and len(pairs):
@@ -255,7 +295,29 @@ def compute(project: Project) -> BuildResult:
         run_info,
         sw.times,
         age_models,
+        others,
     )
+
+
+def _note_erosional_slices(project: Project) -> set[str]:
+    """Say how a slice at an erosional surface is read (docs/inputs.md): in the log, and
+    as ``read_beneath_erosion`` in the slice's quality row. Returns those slices' names."""
+    eros = {s.name for s in project.surfaces if s.erosional}
+    names = set()
+    for sl in project.slices:
+        if sl.surface in eros:
+            names.add(sl.name)
+            log.info(
+                "slice %r is at the erosional surface %r: each core that picks it is read "
+                "in the deposit just beneath it, the youngest record the erosion left "
+                "(older than %g %s by the missing time); the map shows that preserved "
+                "record, not the landscape at the surface's age",
+                sl.name,
+                sl.surface,
+                sl.age,
+                project.age_unit,
+            )
+    return names
 
 
 # --------------------------------------------------------------------------- field
@@ -309,21 +371,38 @@ class _SliceField:
     latent_sd: np.ndarray
     probabilities: np.ndarray | None  # None: they follow from mean and sd
     quality: dict
+    control: tuple = ()  # (point_id, easting, northing, rank, weight) of control points
 
 
-def _map_fields(project: Project, samples: pd.DataFrame, grid: Grid):
+def _map_fields(project: Project, samples: pd.DataFrame, grid: Grid, use_control: bool = True):
     """Ordinal fields of every slice, sharing kriging work between slices with the same
-    cores. Returns [(Slice, _SliceField)] in slice order (oldest first)."""
+    cores. Returns [(Slice, _SliceField)] in slice order (oldest first).
+
+    Control points join the data of the slices at their ages (after the cores, under
+    ids that no core can have), and are split off again into ``_SliceField.control``."""
+    from .control import slice_points
     from .field import map_slices
 
     ids = [c.core_id for c in project.cores]
     index = {cid: i for i, cid in enumerate(ids)}
     e = np.array([c.easting for c in project.cores])
     n = np.array([c.northing for c in project.cores])
+    control = project.control_points if use_control else ()
+    where: dict[tuple, int] = {}
+    for p in control:
+        key = (p.point_id, p.easting, p.northing)
+        if key not in where:
+            where[key] = len(ids)
+            ids.append(f"{_CONTROL_PREFIX}{p.point_id}")
+    if where:
+        e = np.r_[e, [k[1] for k in where]]
+        n = np.r_[n, [k[2] for k in where]]
     by_slice = {}
     for sl in project.slices:
         rows = samples[samples["slice"] == sl.name]
-        if len(rows) < 2:
+        extra = slice_points(control, sl.age)
+        extra_idx = [where[(p.point_id, p.easting, p.northing)] for p in extra]
+        if len(rows) + len(extra) < 2:
             warnings.warn(
                 f"slice {sl.name!r}: only {len(rows)} core(s) have a record at "
                 f"{sl.age:g} {project.age_unit}; the slice is not mapped",
@@ -340,15 +419,16 @@ def _map_fields(project: Project, samples: pd.DataFrame, grid: Grid):
                 stacklevel=2,
             )
         by_slice[sl.name] = (
-            np.array([index[c] for c in rows["core_id"]]),
-            rows["rank"].to_numpy(int),
+            np.r_[np.array([index[c] for c in rows["core_id"]], dtype=int), extra_idx].astype(int),
+            np.r_[rows["rank"].to_numpy(int), [p.rank for p in extra]].astype(int),
         )
     if not by_slice:
         return []
     ce, cn = grid.cell_centres()
     settings = field_settings(project)
     if project.mapping.joint:
-        return _joint_fields(project, by_slice, ids, e, n, ce, cn, settings)
+        out = _joint_fields(project, by_slice, ids, e, n, ce, cn, settings)
+        return [(sl, _split_control(project, sl, fr)) for sl, fr in out]
     results, fit = map_slices(e, n, by_slice, ce, cn, project.scheme.n_belts, settings)
     cov = fit.covariance.as_dict()
     out = []
@@ -381,7 +461,70 @@ def _map_fields(project: Project, samples: pd.DataFrame, grid: Grid):
                 ),
             )
         )
-    return out
+    return [(sl, _split_control(project, sl, fr)) for sl, fr in out]
+
+
+_CONTROL_PREFIX = "\x00control:"  # no core id can start with a NUL
+
+
+def _split_control(project: Project, sl: Slice, fr: _SliceField) -> _SliceField:
+    """The slice's data split into cores and control points (never counted as cores)."""
+    is_core = np.array([not str(c).startswith(_CONTROL_PREFIX) for c in fr.core_ids], bool)
+    if is_core.all():
+        return fr
+    from dataclasses import replace as _replace
+
+    from .control import slice_points
+
+    weights = {p.point_id: p.weight for p in slice_points(project.control_points, sl.age)}
+    control = tuple(
+        (
+            str(c)[len(_CONTROL_PREFIX) :],
+            float(x),
+            float(y),
+            int(r),
+            weights.get(str(c)[len(_CONTROL_PREFIX) :], 1.0),
+        )
+        for c, x, y, r, keep in zip(
+            fr.core_ids, fr.easting, fr.northing, fr.ranks, is_core, strict=True
+        )
+        if not keep
+    )
+    return _replace(
+        fr,
+        core_ids=tuple(c for c, k in zip(fr.core_ids, is_core, strict=True) if k),
+        easting=np.asarray(fr.easting)[is_core],
+        northing=np.asarray(fr.northing)[is_core],
+        ranks=np.asarray(fr.ranks)[is_core],
+        control=control,
+    )
+
+
+def _mixed(project: Project, sl: Slice, fr: _SliceField, bare: _SliceField | None):
+    """A slice's field as the mixture of the map with its control points (probability w,
+    their mean weight) and without them (docs/inputs.md, control points)."""
+    from dataclasses import replace as _replace
+
+    from .control import mix_fields
+    from .field.normalcdf import moment_probabilities
+
+    if not fr.control or bare is None:
+        return fr
+    w = float(np.mean([c[4] for c in fr.control]))
+    if w >= 1.0:
+        return fr
+    t = np.asarray(fr.thresholds, float)
+    tb = np.asarray(bare.thresholds, float)
+
+    def probs(f, thr):
+        if f.probabilities is not None:
+            return np.asarray(f.probabilities, np.float32)
+        p = moment_probabilities(np.asarray(f.latent_mean), np.asarray(f.latent_sd), thr)
+        return np.moveaxis(np.asarray(p, np.float32).reshape(len(thr) + 1, -1), 0, -1)
+
+    mean, sd = mix_fields(w, fr.latent_mean, fr.latent_sd, bare.latent_mean, bare.latent_sd)
+    mixed = w * probs(fr, t) + (1 - w) * probs(bare, tb)
+    return _replace(fr, latent_mean=mean, latent_sd=sd, probabilities=mixed.astype(np.float32))
 
 
 def _cov_fields(cov: dict, prefix: str) -> dict:
@@ -466,18 +609,22 @@ def _slice_map(project: Project, grid: Grid, sl: Slice, fr, b: int) -> SliceMap:
         probs = np.moveaxis(np.asarray(fr.probabilities, np.float32).reshape(*shape, -1), -1, 0)
     t = np.asarray(fr.thresholds, dtype=float)
     nodes = node_field(latent, grid)
+    # control points of weight 1 are imposed like cores; lighter ones only inform the mix
+    imposed = [c for c in fr.control if c[4] >= 1.0]
+    he = np.r_[np.asarray(fr.easting, float), [c[1] for c in imposed]]
+    hn = np.r_[np.asarray(fr.northing, float), [c[2] for c in imposed]]
+    hr = np.r_[np.asarray(fr.ranks, int), [c[3] for c in imposed]].astype(int)
     # honouring moves only the four nodes around a core: note those that moved
-    c0, r0, _, _ = nodes._locate(fr.easting, fr.northing)
+    c0, r0, _, _ = nodes._locate(he, hn)
     near = np.unique(np.concatenate([(r0 + dr) * nodes.values.shape[1] + c0 + dc
                                      for dr in (0, 1) for dc in (0, 1)]))  # fmt: skip
     before = nodes.values.ravel()[near].copy()
-    honour_cores(nodes, fr.easting, fr.northing, fr.ranks, t)
+    honour_cores(nodes, he, hn, hr, t)
     moved = nodes.values.ravel()[near] != before
     rows, cols = np.divmod(near[moved], nodes.values.shape[1])
     adjustments = (rows, cols, nodes.values.ravel()[near[moved]] - before[moved])
     polygons = belt_polygons(None, grid, t, nodes=nodes)
     line = shoreline(nodes, float(t[b - 1]), grid.area)
-    del nodes
     m = SliceMap(
         sl,
         tuple(fr.core_ids),
@@ -493,8 +640,15 @@ def _slice_map(project: Project, grid: Grid, sl: Slice, fr, b: int) -> SliceMap:
         None,
         distal_region(polygons, b),
         probs,
+        control=tuple(fr.control),
     )
     m.band = shoreline_band(m.distal_probability, grid)
+    for other in project.scheme.tracked_boundaries[1:]:
+        m.others[other] = {
+            "line": shoreline(nodes, float(t[other - 1]), grid.area),
+            "band": shoreline_band(m.distal_probability_of(other), grid),
+            "distal": distal_region(polygons, other),
+        }
     inside = [
         bool(shapely.contains_xy(polygons[r], e, n)) if not polygons[r].is_empty else False
         for e, n, r in zip(fr.easting, fr.northing, fr.ranks, strict=True)
@@ -507,15 +661,18 @@ def _slice_map(project: Project, grid: Grid, sl: Slice, fr, b: int) -> SliceMap:
             stacklevel=2,
         )
     if line.is_empty:
+        label = project.scheme.boundary_label(b)
         warnings.warn(
             f"slice {sl.name!r}: the tracked boundary "
             f"{project.scheme.boundary_name(b)!r} does not cross the mapped area (every core "
-            "records the same side of it); no shoreline is drawn for this slice",
+            f"records the same side of it); no {label} is drawn for this slice, and shifts "
+            "to and from it are given as bounds",
             PaleomapWarning,
             stacklevel=2,
         )
     m.quality = dict(
         cores_used=len(fr.core_ids),
+        control_points_used=len(fr.control),
         cores_in_own_belt=int(sum(inside)),
         walther_ok=not touching,
         has_boundary=not line.is_empty,
@@ -527,7 +684,7 @@ def _slice_map(project: Project, grid: Grid, sl: Slice, fr, b: int) -> SliceMap:
 # ---------------------------------------------------------------------- migration
 
 
-def _positions(project: Project, grid: Grid, maps: list[SliceMap], b: int, dip: float):
+def _positions(project: Project, grid: Grid, maps: list[SliceMap], dip: float):
     if project.transect_lines:
         transects = []
         for tid, line in project.transect_lines:
@@ -539,38 +696,50 @@ def _positions(project: Project, grid: Grid, maps: list[SliceMap], b: int, dip: 
         transects = [Transect(tid, line, dip, "dip") for tid, line in lines]
     rows = []
     step = grid.cell_size / 2
+    scheme = project.scheme
     for m in maps:
-        t_b = float(m.thresholds[b - 1])
         nodes = m.nodes
-        for tr in transects:
-            pos = transect_position(tr.line, nodes.at, t_b, m.distal_probability_at, step)
-            rows.append(
-                dict(
-                    transect=tr.transect,
-                    slice=m.slice.name,
-                    age=m.slice.age,
-                    position_m=pos.position_m,
-                    position_low_m=pos.low_m,
-                    position_high_m=pos.high_m,
-                    crossings=pos.crossings,
+        for b in scheme.tracked_boundaries:
+            t_b = float(m.thresholds[b - 1])
+
+            def prob(e, n, m=m, b=b):
+                return m.distal_probability_at(e, n, b)
+
+            for tr in transects:
+                pos = transect_position(tr.line, nodes.at, t_b, prob, step)
+                rows.append(
+                    dict(
+                        transect=tr.transect,
+                        boundary=scheme.boundary_name(b),
+                        slice=m.slice.name,
+                        age=m.slice.age,
+                        position_m=pos.position_m,
+                        position_low_m=pos.low_m,
+                        position_high_m=pos.high_m,
+                        crossings=pos.crossings,
+                        outside=pos.outside,
+                    )
                 )
-            )
-    return transects, pd.DataFrame(
-        rows,
-        columns=[
-            "transect",
-            "slice",
-            "age",
-            "position_m",
-            "position_low_m",
-            "position_high_m",
-            "crossings",
-        ],
-    )
+    return transects, pd.DataFrame(rows, columns=POSITION_COLUMNS)
 
 
-_SHIFT_COLUMNS = [
+POSITION_COLUMNS = [
     "transect",
+    "boundary",
+    "slice",
+    "age",
+    "position_m",
+    "position_low_m",
+    "position_high_m",
+    "crossings",
+    "outside",
+]
+"""Columns of the ``shoreline_positions`` table (``outside``: ``""``, ``"landward"`` or
+``"basinward"``, where the boundary misses the transect)."""
+
+SHIFT_COLUMNS = [
+    "transect",
+    "boundary",
     "older_slice",
     "younger_slice",
     "older_age",
@@ -579,14 +748,22 @@ _SHIFT_COLUMNS = [
     "shift_low_m",
     "shift_high_m",
     "rate_m_per_kyr",
-    "rate_low",
-    "rate_high",
+    "rate_low_m_per_kyr",
+    "rate_high_m_per_kyr",
+    "shift_bound",
+    "older_outside",
+    "younger_outside",
     "sense",
     "older_crossings",
     "younger_crossings",
     "geometry",
 ]
-_PAIR_COLUMNS = [
+"""Columns of the ``shoreline_shifts`` layer. ``shift_bound`` is ``"at_least"`` where the
+boundary lies outside the mapped area at one slice: the shift is then at least
+``shift_m`` in its direction."""
+
+PAIR_COLUMNS = [
+    "boundary",
     "older_slice",
     "younger_slice",
     "older_age",
@@ -595,12 +772,19 @@ _PAIR_COLUMNS = [
     "exposed_km2",
     "net_shift_m",
     "net_rate_m_per_kyr",
-    "net_dip_shift_m",
-    "net_dip_rate_m_per_kyr",
+    "net_shift_bound",
+    "net_normal_shift_m",
+    "median_shift_m",
+    "median_shift_low_m",
+    "median_shift_high_m",
     "median_rate_m_per_kyr",
     "transects_used",
+    "transects_bound",
     "sense",
 ]
+"""Columns of the ``slice_pairs`` table. ``net_shift_m`` is the dip-equivalent net shift
+(net area over the boundary's extent along strike), the headline figure;
+``net_normal_shift_m`` the same net area over the boundary's length."""
 
 
 def _ordered_pairs(maps: list[SliceMap]):
@@ -609,91 +793,178 @@ def _ordered_pairs(maps: list[SliceMap]):
     return list(zip(by_age[:-1], by_age[1:], strict=False))
 
 
-def _shifts(project: Project, maps, transects, positions, dip: float):
+def _area_extent_along(area, azimuth_deg: float) -> float:
+    """Extent (m) of the mapped area along an azimuth: no distance may exceed it."""
+    xy = shapely.get_coordinates(area)
+    a = np.radians(azimuth_deg)
+    d = xy @ np.array([np.sin(a), np.cos(a)])
+    return float(d.max() - d.min()) if len(d) else float("nan")
+
+
+def _edge_point(line, side: str):
+    return line.coords[0] if side == "landward" else line.coords[-1]
+
+
+def _shifts(project: Project, grid: Grid, maps, transects, positions, dip: float):
     from .migration import TransectPosition
 
     kyr = project.kyr_per_age_unit
     tol = project.migration.stillstand_m_per_kyr
     sd = {s.name: s.age_sd for s in project.surfaces}
-    pos = {(r.transect, r.slice): r for r in positions.itertuples()}
+    pos = {(r.transect, r.boundary, r.slice): r for r in positions.itertuples()}
     lines = {t.transect: t.line for t in transects}
+    dip_extent = _area_extent_along(grid.area, dip)
+    scheme = project.scheme
     rows = []
     pair_rows = []
-    for k, (old, young) in enumerate(_ordered_pairs(maps)):
-        for tr in transects:
-            po, py = pos[(tr.transect, old.slice.name)], pos[(tr.transect, young.slice.name)]
-            stats = shift_statistics(
-                TransectPosition(
-                    po.position_m, po.position_low_m, po.position_high_m, po.crossings
-                ),
-                TransectPosition(
-                    py.position_m, py.position_low_m, py.position_high_m, py.crossings
-                ),
-                old.slice.age * kyr,
-                young.slice.age * kyr,
-                sd.get(old.slice.surface or "", 0.0) * kyr,
-                sd.get(young.slice.surface or "", 0.0) * kyr,
-                seed=k,
-            )
-            if np.isfinite(stats["shift_m"]):
+
+    def tp(r, line):
+        return TransectPosition(
+            r.position_m, r.position_low_m, r.position_high_m, r.crossings, r.outside, line.length
+        )
+
+    for b in scheme.tracked_boundaries:
+        bname = scheme.boundary_name(b)
+        for k, (old, young) in enumerate(_ordered_pairs(maps)):
+            first = len(rows)
+            for tr in transects:
                 line = lines[tr.transect]
-                geom = shapely.LineString(
-                    [
-                        shapely.line_interpolate_point(line, po.position_m).coords[0],
-                        shapely.line_interpolate_point(line, py.position_m).coords[0],
-                    ]
+                po = pos[(tr.transect, bname, old.slice.name)]
+                py = pos[(tr.transect, bname, young.slice.name)]
+                stats = shift_statistics(
+                    tp(po, line),
+                    tp(py, line),
+                    old.slice.age * kyr,
+                    young.slice.age * kyr,
+                    sd.get(old.slice.surface or "", 0.0) * kyr,
+                    sd.get(young.slice.surface or "", 0.0) * kyr,
+                    seed=k,
                 )
-            else:
+                if stats["shift_bound"]:
+                    sense = _bound_sense(stats["shift_m"])
+                else:
+                    sense = classify_sense(
+                        [stats["rate_m_per_kyr"]],
+                        tol,
+                        [stats["shift_low_m"]],
+                        [stats["shift_high_m"]],
+                    )[0]
                 geom = None
-            rows.append(
-                dict(
-                    transect=tr.transect,
-                    older_slice=old.slice.name,
-                    younger_slice=young.slice.name,
-                    older_age=old.slice.age,
-                    younger_age=young.slice.age,
-                    **stats,
-                    sense=classify_sense([stats["rate_m_per_kyr"]], tol)[0],
-                    older_crossings=po.crossings,
-                    younger_crossings=py.crossings,
-                    geometry=geom,
+                if np.isfinite(stats["shift_m"]):
+                    ends = []
+                    for r in (po, py):
+                        if r.outside:
+                            ends.append(_edge_point(line, r.outside))
+                        else:
+                            p = shapely.line_interpolate_point(line, r.position_m)
+                            ends.append(p.coords[0])
+                    if ends[0] != ends[1]:
+                        geom = shapely.LineString(ends)
+                rows.append(
+                    dict(
+                        transect=tr.transect,
+                        boundary=bname,
+                        older_slice=old.slice.name,
+                        younger_slice=young.slice.name,
+                        older_age=old.slice.age,
+                        younger_age=young.slice.age,
+                        **stats,
+                        sense=sense,
+                        older_crossings=po.crossings,
+                        younger_crossings=py.crossings,
+                        geometry=geom,
+                    )
+                )
+            pair_rows.append(
+                _pair_row(
+                    old,
+                    young,
+                    b,
+                    bname,
+                    rows[first:],
+                    dip,
+                    dip_extent,
+                    (old.slice.age - young.slice.age) * kyr,
+                    tol,
                 )
             )
-        area = area_change(
-            old.distal,
-            young.distal,
-            old.shoreline.length,
-            young.shoreline.length,
-            strike_extent(old.shoreline, dip),
-            strike_extent(young.shoreline, dip),
-        )
-        dt = (old.slice.age - young.slice.age) * kyr
-        rates = [r["rate_m_per_kyr"] for r in rows[-len(transects) :]] if transects else []
-        rates = np.array([r for r in rates if np.isfinite(r)])
-        median = float(np.median(rates)) if rates.size else np.nan
-        pair_rows.append(
-            dict(
-                older_slice=old.slice.name,
-                younger_slice=young.slice.name,
-                older_age=old.slice.age,
-                younger_age=young.slice.age,
-                **area,
-                net_rate_m_per_kyr=area["net_shift_m"] / dt if dt > 0 else np.nan,
-                net_dip_rate_m_per_kyr=area["net_dip_shift_m"] / dt if dt > 0 else np.nan,
-                median_rate_m_per_kyr=median,
-                transects_used=int(rates.size),
-                sense=classify_sense([median], tol)[0],
-            )
-        )
-    shifts = pd.DataFrame(rows, columns=_SHIFT_COLUMNS)
-    pairs = pd.DataFrame(pair_rows, columns=_PAIR_COLUMNS)
-    # least-squares rate per transect over every slice
+    shifts = pd.DataFrame(rows, columns=SHIFT_COLUMNS)
+    pairs = pd.DataFrame(pair_rows, columns=PAIR_COLUMNS)
+    # least-squares rate per transect over every slice, of the tracked boundary
+    main = positions[positions["boundary"] == scheme.boundary_name(scheme.tracked_boundary)]
     out = []
     for tr in transects:
-        p = positions[positions["transect"] == tr.transect]
+        p = main[main["transect"] == tr.transect]
         rate = lsq_rate(p["age"].to_numpy() * kyr, p["position_m"].to_numpy())
         out.append(Transect(tr.transect, tr.line, tr.azimuth_deg, tr.source, rate))
     return shifts, pairs, out
+
+
+def _bound_sense(bound: float) -> str:
+    """A bound's sense: its direction is known (the shift is at least that far)."""
+    if bound > 0:
+        return "transgression"
+    if bound < 0:
+        return "regression"
+    return "uncertain"
+
+
+def _pair_row(old, young, b, bname, rows, dip, dip_extent, dt, tol) -> dict:
+    """One slice pair of one boundary: areas, the dip-equivalent net shift (as a bound
+    where the boundary leaves the mapped area), the transects' median and the sense."""
+    bo, by = old.boundary(b), young.boundary(b)
+    ext_o = strike_extent(bo["line"], dip) if not bo["line"].is_empty else 0.0
+    ext_y = strike_extent(by["line"], dip) if not by["line"].is_empty else 0.0
+    present = [e for e in (ext_o, ext_y) if e > 0]
+    area = area_change(
+        bo["distal"],
+        by["distal"],
+        bo["line"].length,
+        by["line"].length,
+        float(np.mean(present)) if present else None,
+        float(np.mean(present)) if present else None,
+    )
+    net = area.get("net_dip_shift_m", np.nan)
+    normal = area["net_shift_m"]
+    # Where the boundary is missing at a slice, the areas stop at the mapped area's edge:
+    # the net shift is a bound. Nothing may exceed the mapped area's extent along dip.
+    bound = len(present) < 2
+    if np.isfinite(net) and abs(net) > dip_extent:
+        net, bound = float(np.sign(net) * dip_extent), True
+    if np.isfinite(normal) and abs(normal) > dip_extent:
+        normal = float(np.sign(normal) * dip_extent)
+    exact = [r for r in rows if not r["shift_bound"] and np.isfinite(r["shift_m"])]
+    bounds = [r for r in rows if r["shift_bound"]]
+    if exact:
+        shift = float(np.median([r["shift_m"] for r in exact]))
+        low = float(np.median([r["shift_low_m"] for r in exact]))
+        high = float(np.median([r["shift_high_m"] for r in exact]))
+        rate = float(np.median([r["rate_m_per_kyr"] for r in exact]))
+        sense = classify_sense([rate], tol, [low], [high])[0]
+    else:
+        shift = low = high = rate = np.nan
+        signs = {_bound_sense(r["shift_m"]) for r in bounds}
+        sense = signs.pop() if len(signs) == 1 else ("uncertain" if signs else "")
+    return dict(
+        boundary=bname,
+        older_slice=old.slice.name,
+        younger_slice=young.slice.name,
+        older_age=old.slice.age,
+        younger_age=young.slice.age,
+        flooded_km2=area["flooded_km2"],
+        exposed_km2=area["exposed_km2"],
+        net_shift_m=net,
+        net_rate_m_per_kyr=net / dt if dt > 0 and np.isfinite(net) else np.nan,
+        net_shift_bound="at_least" if bound and np.isfinite(net) else "",
+        net_normal_shift_m=normal,
+        median_shift_m=shift,
+        median_shift_low_m=low,
+        median_shift_high_m=high,
+        median_rate_m_per_kyr=rate,
+        transects_used=len(exact),
+        transects_bound=len(bounds),
+        sense=sense,
+    )
 
 
 # ---------------------------------------------------------------------- core reading

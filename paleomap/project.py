@@ -21,10 +21,20 @@ import pyproj
 from pyproj.crs import CoordinateOperation, ProjectedCRS
 
 from .cores import Core
-from .errors import Problem, ProblemLog
+from .errors import InputError, Problem, ProblemLog
 from .figures.palette import belt_colors
 from .io.sources import INPUT_KEYS, InputSources, read_sources
-from .scheme import _HEX, BUILTIN_SCHEMES, Belt, Scheme, _scheme_problems, builtin_scheme
+from .scheme import (
+    _HEX,
+    BUILTIN_SCHEMES,
+    LITHOLOGY_SCHEMES,
+    Belt,
+    Scheme,
+    _scheme_problems,
+    builtin_belts,
+    builtin_scheme,
+    lithology_track_problem,
+)
 
 __all__ = [
     "AGE_UNITS",
@@ -34,6 +44,7 @@ __all__ = [
     "MappingSettings",
     "MigrationSettings",
     "Project",
+    "ReadingOptions",
     "ProjectConfig",
     "Slice",
     "Surface",
@@ -162,6 +173,31 @@ class MigrationSettings:
 
 
 @dataclass(frozen=True)
+class ReadingOptions:
+    """``[reading]``: the scales of the core reading, in the project's depth unit.
+
+    ``None`` takes the default of :class:`paleomap.stacking.ReadingSettings` (given there
+    in metres and converted to the depth unit).
+
+    Parameters
+    ----------
+    noise_thickness : float or None
+        Beds thinner than this are noise to the turnaround search (default 0.6 m, about
+        2 ft: four steps of a log described every 0.5 ft).
+    pick_tolerance : float or None
+        How far a pick may lie outside a turnaround's span and still be "at" it
+        (default 1 m).
+    contact_tolerance : float or None
+        How far an erosional pick may lie from a contact and still be "at" it
+        (default 0.1 m).
+    """
+
+    noise_thickness: float | None = None
+    pick_tolerance: float | None = None
+    contact_tolerance: float | None = None
+
+
+@dataclass(frozen=True)
 class Project:
     """A validated project, ready to build.
 
@@ -183,6 +219,10 @@ class Project:
     grid: GridSettings
     mapping: MappingSettings = field(default_factory=MappingSettings)
     migration: MigrationSettings = field(default_factory=MigrationSettings)
+    reading: ReadingOptions = field(default_factory=ReadingOptions)
+    control_points: tuple = ()
+    """The user's control points (:class:`paleomap.control.ControlPoint`), pseudo-cores
+    that impose an interpretation; never cores."""
     area: object | None = None
     """Area of interest (shapely Polygon/MultiPolygon in working CRS) or None."""
     transect_lines: tuple = ()
@@ -216,7 +256,7 @@ MAPPING_MODELS = ("auto", "exponential", "spherical", "gaussian", "matern32")
 
 _TABLES = {
     "project": ("name", "crs"),
-    "inputs": INPUT_KEYS,
+    "inputs": (*INPUT_KEYS, "control_points"),
     "time": ("age_unit",),
     "surfaces": ("name", "age", "age_sd", "erosional"),
     "scheme": ("builtin", "belts", "track", "colors", "name"),
@@ -236,6 +276,7 @@ _TABLES = {
         "joint",
     ),
     "migration": ("transects", "transect_spacing_m", "stillstand_m_per_kyr"),
+    "reading": ("noise_thickness", "pick_tolerance", "contact_tolerance"),
 }
 _BELT_KEYS = ("id", "marine", "aliases", "color", "label")
 _REQUIRED_TABLES = ("project", "inputs", "time", "surfaces", "scheme", "grid")
@@ -291,6 +332,8 @@ class ProjectConfig:
     grid: GridSettings | None = None
     mapping: MappingSettings = field(default_factory=MappingSettings)
     migration: MigrationSettings = field(default_factory=MigrationSettings)
+    reading: ReadingOptions = field(default_factory=ReadingOptions)
+    control_points: str | None = None
     lines: dict = field(default_factory=dict)
     belts: tuple[Belt, ...] | None = None
     sources: InputSources = field(default_factory=InputSources)
@@ -336,7 +379,7 @@ def parse_config(
     ... name = "top"
     ... age = 100
     ... [scheme]
-    ... builtin = "siliciclastic"
+    ... builtin = "shoreface_shelf"
     ... [grid]
     ... cell_size = 250
     ... ''')
@@ -643,6 +686,8 @@ class _ConfigReader:
             out["depth_unit"] = self.text(
                 inputs, ("inputs",), "depth_unit", choices=tuple(DEPTH_UNITS)
             )
+            out["control_points"] = self.text(inputs, ("inputs",), "control_points", False)
+            lines["inputs.control_points"] = self.locate.line_of(("inputs", "control_points"))
         time = self.table("time") or {}
         if "time" in self.data:
             out["age_unit"] = self.text(time, ("time",), "age_unit", choices=tuple(AGE_UNITS))
@@ -656,6 +701,7 @@ class _ConfigReader:
         out["grid"] = self.read_grid(lines)
         out["mapping"] = self.read_mapping()
         out["migration"] = self.read_migration(lines)
+        out["reading"] = self.read_reading()
         return ProjectConfig(self.file, lines=lines, **out)
 
     def read_crs(self, project: dict) -> pyproj.CRS | None:
@@ -800,16 +846,36 @@ class _ConfigReader:
             return None
         name = self.text(table, path, "name", required=False)
 
+        also_track: tuple = ()
+        kind = "custom"
         if has_builtin:
-            builtin = self.text(table, path, "builtin", choices=BUILTIN_SCHEMES)
+            builtin = self.text(table, path, "builtin")
             if builtin is None:
                 return None
-            base = builtin_scheme(builtin)
+            if builtin in LITHOLOGY_SCHEMES and track is None:
+                p = lithology_track_problem(builtin)
+                self.belts = builtin_belts(builtin)
+                self.err((*path, "builtin"), builtin, p.message, p.hint)
+                return None
+            try:
+                base = builtin_scheme(builtin, track)
+            except InputError as exc:
+                # the belts as read still let the facies be checked in the same pass
+                belts_as_read = builtin_belts(builtin)
+                if belts_as_read is not None:
+                    self.belts = belts_as_read
+                for p in exc.problems:
+                    key = tuple(p.column.split(".")) if p.column else path
+                    self.err(key, p.value, p.message, p.hint)
+                return None
             belts = list(base.belts)
             name = name or base.name
             family = base.family
+            kind = base.kind
             if track is None:
                 track = base.track
+                # a ramp's second boundary goes with the scheme's own choice of track
+                also_track = base.also_track
         else:
             belts = self.read_belts(table["belts"])
             if belts is None:
@@ -845,7 +911,7 @@ class _ConfigReader:
             )
         if problems:
             return None
-        return Scheme(name, tuple(belts), track, family)
+        return Scheme(name, tuple(belts), track, family, also_track, kind)
 
     def read_belts(self, raw) -> list[Belt] | None:
         path = ("scheme", "belts")
@@ -1019,6 +1085,17 @@ class _ConfigReader:
             "stillstand_m_per_kyr": self.number(table, p, "stillstand_m_per_kyr", minimum=0),
         }
         return replace(MigrationSettings(), **{k: v for k, v in values.items() if v is not None})
+
+    def read_reading(self) -> ReadingOptions:
+        table = self.table("reading")
+        if table is None:
+            return ReadingOptions()
+        p = ("reading",)
+        return ReadingOptions(
+            noise_thickness=self.number(table, p, "noise_thickness", minimum=0),
+            pick_tolerance=self.number(table, p, "pick_tolerance", minimum=0),
+            contact_tolerance=self.number(table, p, "contact_tolerance", minimum=0),
+        )
 
 
 class TomlLocator:

@@ -245,6 +245,7 @@ _PAIR_COLUMNS = [
     "median_rate_m_per_kyr",
     "net_rate_m_per_kyr",
     "net_shift_m",
+    "net_shift_bound",
     "flooded_km2",
     "exposed_km2",
     "transects_used",
@@ -260,8 +261,9 @@ _SHIFT_COLUMNS = [
     "shift_low_m",
     "shift_high_m",
     "rate_m_per_kyr",
-    "rate_low",
-    "rate_high",
+    "rate_low_m_per_kyr",
+    "rate_high_m_per_kyr",
+    "shift_bound",
     "sense",
 ]
 
@@ -293,9 +295,13 @@ def _pairs_section(result) -> str:
     return f"""
 <h2 id="slice-pairs-section">Shoreline shifts between slices</h2>
 <p class="muted">Consecutive slices, older first. Rates are in m/kyr (1 m/kyr = 1 mm/yr),
-positive landward (transgression). The median rate is over the transects; the net rate
-is the net area change divided by the mean shoreline length and the time between the
-slices. <code>core_sense</code> is what the cores' stacking says for the same interval,
+positive landward (transgression). The median rate is over the transects; the net shift
+is the net area change divided by the boundary's mean extent along strike (the
+dip-equivalent shift), and the net rate that over the time between the slices. Where the
+boundary leaves the mapped area at a slice, a shift is only a bound (<code>at_least</code>:
+at least that far in its direction). Low and high are the P10 and P90 (10 % and 90 % of the
+probability below); a sense is <code>uncertain</code> where that range spans zero.
+<code>core_sense</code> is what the cores' stacking says for the same interval,
 <code>agreement</code> whether it agrees with the map. These are the values of the
 GeoPackage's <code>slice_pairs</code> table, to {SIGNIFICANT_DIGITS} significant
 digits.</p>

@@ -60,7 +60,7 @@ DEFAULT_CONFIG: dict = {
         {"name": "s_mid", "age": 200.0},
         {"name": "s_old", "age": 300.0, "age_sd": 10.0},
     ],
-    "scheme": {"builtin": "siliciclastic"},
+    "scheme": {"builtin": "siliciclastic_lithology", "track": ["coarse_sand", "fine_sand"]},
     "slices": {"at": "surfaces"},
     "grid": {"cell_size": 500.0, "margin": 1000.0},
 }

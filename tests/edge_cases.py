@@ -193,7 +193,7 @@ INVALID = [
         "unknown-facies",
         {"intervals": replace_line(INTERVALS, 2, "C1,0,10,marl")},
         "intervals.csv",
-        "is not a facies of the 'siliciclastic' scheme",
+        "is not a facies of the 'siliciclastic_lithology' scheme",
         "marl",
         "facies",
         2,
@@ -475,7 +475,7 @@ INVALID = [
     # -- schemes ----------------------------------------------------------------------------------
     Broken(
         "marine-not-contiguous",
-        {"config": {"scheme": {"builtin": REMOVE, "belts": _CUSTOM_BELTS}}},
+        {"config": {"scheme": {"builtin": REMOVE, "track": REMOVE, "belts": _CUSTOM_BELTS}}},
         "project.toml",
         "marine belts are not one contiguous distal run",
         ["beach", "offshore"],
@@ -504,7 +504,7 @@ INVALID = [
         "unknown-builtin",
         {"keys": {"scheme.builtin": "evaporite"}},
         "project.toml",
-        "is not allowed",
+        "is not a built-in scheme",
         "evaporite",
         "scheme.builtin",
         toml_line="builtin =",
@@ -515,6 +515,7 @@ INVALID = [
             "config": {
                 "scheme": {
                     "builtin": REMOVE,
+                    "track": REMOVE,
                     "belts": [
                         {"id": "land", "marine": False},
                         {"id": "sea", "marine": True, "colour": "#112233"},

@@ -15,8 +15,13 @@ import pytest
 from paleomap.accuracy import rate_scores, shoreline_scores
 from paleomap.io.readers import load_project
 from paleomap.pipeline import compute
+from paleomap.scheme import builtin_scheme
 from paleomap.synthetic import make_basin, write_project
 from paleomap.synthetic.demo import demo_basin
+
+# The seeded basins keep the five grain-size classes their figures in docs/accuracy.md were
+# measured with (a wide sand belt at the shoreline); the demo uses shoreface_shelf.
+GRAIN_SIZE = builtin_scheme("siliciclastic_lithology", ("coarse_sand", "fine_sand"))
 
 pytestmark = pytest.mark.slow
 
@@ -25,7 +30,13 @@ def _basin(which):
     if which == "demo":
         return demo_basin()
     # 40 cores on 40 km x 40 km: a mean spacing of about 6.3 km; relief wavelength 15 km
-    return make_basin(n_cores=40, seed=which, relief_amplitude_m=5.0, relief_wavelength_m=15_000.0)
+    return make_basin(
+        n_cores=40,
+        seed=which,
+        relief_amplitude_m=5.0,
+        relief_wavelength_m=15_000.0,
+        scheme=GRAIN_SIZE,
+    )
 
 
 @pytest.fixture(scope="module", params=["demo", 1, 2], ids=["demo", "seed1", "seed2"])
@@ -64,7 +75,11 @@ def test_information_limit_is_below_both(scored):
 
 def test_sense_is_right_for_every_slice_pair(scored):
     _, _, _, rates = scored
-    assert rates["sense_ok"].all(), rates[["older_slice", "younger_slice", "sense", "true_sense"]]
+    # never the wrong direction; a pair whose P10-P90 spans zero says "uncertain"
+    shown = rates[["older_slice", "younger_slice", "sense", "true_sense"]]
+    assert not rates["sense_wrong"].any(), shown
+    assert (rates["sense_ok"] | (rates["sense"] == "uncertain")).all(), shown
+    assert rates["sense_ok"].mean() >= 0.7, shown
 
 
 def test_median_transect_rate_error(scored):

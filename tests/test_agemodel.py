@@ -222,9 +222,17 @@ def test_surface_slice_reads_the_pick_even_across_an_erosional_surface(tmp_path)
     )
     project = load_project(path)
     table = sample_slices(project).set_index(["slice", "core_id"])
-    # 20 m in C1 is the silt|fine_sand contact: the slice reads the silt above it.
-    assert table.loc[("s_mid", "C1"), "belt"] == "silt"
+    # 20 m in C1 is the silt|fine_sand contact and s_mid is erosional: what rests on it
+    # (the silt) came after the erosion, so the slice reads the fine sand beneath it, the
+    # youngest record the erosion left (docs/inputs.md, slices at erosional surfaces).
+    assert table.loc[("s_mid", "C1"), "belt"] == "fine_sand"
     assert table.loc[("s_mid", "C1"), "depth"] == 20.0
+    # a conformable surface on a contact still reads the interval above it
+    conformable = load_project(
+        write_project(tmp_path / "c", picks=replace_line(PICKS, 3, "C1,s_mid,20"))
+    )
+    table = sample_slices(conformable).set_index(["slice", "core_id"])
+    assert table.loc[("s_mid", "C1"), "belt"] == "silt"
 
 
 def test_empty_sample_table_keeps_its_columns(project_path):

@@ -99,7 +99,7 @@ def test_synth_refuses_to_replace_without_overwrite(tmp_path):
         (["--cores", "many"], "column '--cores': is not a whole number (got 'many')"),
         (["--cores", "0"], "column '--cores': must be at least 1 (got '0')"),
         (["--layout", "hex"], "column '--layout': is not allowed (got 'hex')"),
-        (["--scheme", "reef"], "hoose one of ['siliciclastic', 'carbonate_ramp']"),
+        (["--scheme", "reef"], "hoose one of ['shoreface_shelf', 'carbonate_ramp']"),
         (["--gradient", "-1"], "column '--gradient': must be greater than 0 (got '-1')"),
         (["--relief", "nan"], "column '--relief': is not a finite number (got 'nan')"),
         (["--relief-wavelength", "0"], "column '--relief-wavelength': must be greater than 0"),

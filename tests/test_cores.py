@@ -14,7 +14,7 @@ from paleomap.errors import InputError, PaleomapWarning, ProblemLog
 from paleomap.project import Surface
 from paleomap.scheme import builtin_scheme
 
-SCHEME = builtin_scheme("siliciclastic")
+SCHEME = builtin_scheme("siliciclastic_lithology", ("coarse_sand", "fine_sand"))
 SURFACES = [Surface("s1", 100.0), Surface("s2", 200.0, erosional=True), Surface("s3", 300.0)]
 
 

@@ -163,6 +163,9 @@ def test_default_engine_beats_the_rank_spline_on_a_family(tmp_path):
         outputs = build_outputs(result)
         row = summarise(slice_scores(basin, outputs), pair_scores(basin, outputs))
         assert row["shoreline_error"] < 0.4, (family, row)
-        assert row["senses_right"] >= row["pairs"] - 1, (family, row)
+        # never the wrong direction but for one pair; "uncertain" (P10-P90 spans zero)
+        # is not wrong
+        assert row["senses_wrong"] <= 1, (family, row)
+        assert row["senses_right"] + row["senses_uncertain"] >= row["pairs"] - 1, (family, row)
         ratios[family] = row["ratio_spline"]
     assert min(ratios.values()) < 0.9, ratios

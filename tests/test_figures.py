@@ -64,6 +64,7 @@ def two_belt_project(folder: Path) -> Path:
         "surfaces": [{"name": "s1", "age": 10.0}, {"name": "s2", "age": 20.0}],
         "scheme": {
             "builtin": REMOVE,
+            "track": REMOVE,
             "name": "coast",
             "belts": [
                 {"id": "land", "marine": False},
@@ -370,7 +371,12 @@ def test_position_panel_labels_every_step_with_its_rate(two_belt):
     labels = [t.get_text() for t in ax.texts]
     assert len(labels) == len(sh)
     for r in sh.itertuples():
-        assert rate_text(r.rate_m_per_kyr, r.rate_low, r.rate_high, unit=False, sep="\n") in labels
+        assert (
+            rate_text(
+                r.rate_m_per_kyr, r.rate_low_m_per_kyr, r.rate_high_m_per_kyr, unit=False, sep="\n"
+            )
+            in labels
+        )
 
 
 # ------------------------------------------------------------------- all figures

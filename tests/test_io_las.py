@@ -168,7 +168,9 @@ def test_las_project_builds_and_reads_the_same_belts_at_the_picks_as_csv(tmp_pat
     assert len(csv_layer) == 12
     assert list(las_layer["belt"]) == list(csv_layer["belt"])
     assert list(las_layer["rank"]) == list(csv_layer["rank"])
-    assert np.allclose(las_layer["depth"], csv_layer["depth"], atol=1e-9)
+    # depth fields carry the project's depth unit (docs/conventions.md)
+    depth = next(c for c in csv_layer.columns if c.startswith("depth_"))
+    assert np.allclose(las_layer[depth], csv_layer[depth], atol=1e-9)
 
 
 def _check(path):

@@ -214,12 +214,15 @@ def test_bad_arguments(call, match):
 
 
 def test_layer_styles_cover_our_spatial_layers():
-    cats = belt_categories(builtin_scheme("siliciclastic"))
+    cats = belt_categories(builtin_scheme("siliciclastic_lithology", ("coarse_sand", "fine_sand")))
     got = layer_styles(cats)
     assert set(got) == {
         "cores",
         "core_slices",
         "core_contacts",
+        "turnarounds",
+        "gaps",
+        "control_points",
         "facies_belts",
         "shorelines",
         "shoreline_bands",
@@ -230,10 +233,13 @@ def test_layer_styles_cover_our_spatial_layers():
         assert sld_layer_name(sld) == name
     belts = _parse(got["facies_belts"])
     assert [r.find(".//ogc:Literal", NS).text for r in _rules(belts)] == list(
-        builtin_scheme("siliciclastic").ids
+        builtin_scheme("siliciclastic_lithology", ("coarse_sand", "fine_sand")).ids
     )
     fills = [_params(r.find(".//se:Fill", NS))["fill"] for r in _rules(belts)]
-    assert fills == [c.lower() for c in builtin_scheme("siliciclastic").colors]
+    assert fills == [
+        c.lower()
+        for c in builtin_scheme("siliciclastic_lithology", ("coarse_sand", "fine_sand")).colors
+    ]
     band = _params(_parse(got["shoreline_bands"]).find(".//se:Fill", NS))
     assert 0 < float(band["fill-opacity"]) < 1
 

@@ -88,7 +88,7 @@ def test_shift_sign_and_rate_units():
     assert s["shift_m"] == pytest.approx(2000.0)
     assert s["rate_m_per_kyr"] == pytest.approx(200.0)
     assert s["shift_low_m"] < 2000.0 < s["shift_high_m"]
-    assert s["rate_low"] < 200.0 < s["rate_high"]
+    assert s["rate_low_m_per_kyr"] < 200.0 < s["rate_high_m_per_kyr"]
     # with ages in Ma the caller converts to kyr first: 0.110 Ma -> 110 kyr
     s_ma = shift_statistics(older, younger, 0.110 * 1000, 0.100 * 1000)
     assert s_ma["rate_m_per_kyr"] == pytest.approx(200.0)
@@ -99,7 +99,9 @@ def test_age_uncertainty_widens_the_rate_range():
     younger = TransectPosition(3000.0, 2990.0, 3010.0, 1)
     narrow = shift_statistics(older, younger, 110.0, 100.0)
     wide = shift_statistics(older, younger, 110.0, 100.0, 2.0, 2.0)
-    assert (wide["rate_high"] - wide["rate_low"]) > 5 * (narrow["rate_high"] - narrow["rate_low"])
+    assert (wide["rate_high_m_per_kyr"] - wide["rate_low_m_per_kyr"]) > 5 * (
+        narrow["rate_high_m_per_kyr"] - narrow["rate_low_m_per_kyr"]
+    )
 
 
 def test_lsq_rate_is_positive_for_a_transgression():

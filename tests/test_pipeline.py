@@ -28,6 +28,7 @@ FEATURE_LAYERS = {
     "cores": "POINT",
     "core_slices": "POINT",
     "core_contacts": "POINT",
+    "turnarounds": "POINT",
     "facies_belts": "MULTIPOLYGON",
     "shorelines": "MULTILINESTRING",
     "shoreline_bands": "MULTIPOLYGON",
@@ -114,8 +115,8 @@ def test_layers_carry_slice_and_age(demo):
         "shift_low_m",
         "shift_high_m",
         "rate_m_per_kyr",
-        "rate_low",
-        "rate_high",
+        "rate_low_m_per_kyr",
+        "rate_high_m_per_kyr",
         "sense",
     ):
         assert col in shifts.columns, col
@@ -216,21 +217,45 @@ def test_area_and_transect_estimates_agree_on_a_sinuous_shoreline(demo):
     # shoreline's extent along strike, and the median over the dip transects.
     _, result, _ = demo
     p = result.slice_pairs
-    assert np.allclose(p["net_dip_rate_m_per_kyr"], p["median_rate_m_per_kyr"], rtol=0.1)
-    # the normal (length-based) net shift is smaller where the shoreline is sinuous
-    assert (p["net_shift_m"].abs() <= p["net_dip_shift_m"].abs() + 1e-6).all()
+    assert np.allclose(p["net_rate_m_per_kyr"], p["median_rate_m_per_kyr"], rtol=0.1)
+    # the normal (length-based) net shift is smaller where the shoreline is sinuous; the
+    # headline net shift is the dip-equivalent one
+    assert (p["net_normal_shift_m"].abs() <= p["net_shift_m"].abs() + 1e-6).all()
 
 
 def test_core_reading_is_in_the_geopackage(demo):
     _, result, out = demo
     contacts = gpd.read_file(out / GPKG_NAME, layer="core_contacts")
-    assert {"core_id", "depth", "lower", "upper", "jump", "flag"} <= set(contacts.columns)
+    assert {"core_id", "depth_m", "lower", "upper", "jump_ranks", "flag"} <= set(contacts.columns)
     assert len(contacts) == len(result.reading.contacts)
     cores = gpd.read_file(out / GPKG_NAME, layer="cores")
     assert "trend" in " ".join(cores.columns)
     pairs = pyogrio.read_dataframe(out / GPKG_NAME, layer="slice_pairs")
     assert {"n_deepening", "n_shallowing", "agreement"} <= set(pairs.columns)
     assert (pairs["agreement"] != "disagree").all()
+
+
+def test_turnarounds_and_gaps_layers(demo):
+    # The stacking docs promise both tables; they are point layers at the cores.
+    project, result, out = demo
+    turns = gpd.read_file(out / GPKG_NAME, layer="turnarounds")
+    assert len(turns) == len(result.reading.turnarounds) > 0
+    assert set(turns["kind"]) <= {"maximum flooding", "maximum regressive"}
+    assert {"core_id", "depth_m", "age", "confidence", "cycle"} <= set(turns.columns)
+    assert turns["confidence"].between(0, 1).all()
+    gaps = pyogrio.read_info(out / GPKG_NAME, layer="gaps")
+    assert gaps["geometry_type"] == "Point" and gaps["features"] == len(result.reading.gaps)
+    assert {"core_id", "top_m", "base_m", "thickness_m"} <= set(gaps["fields"])
+
+
+def test_no_leftover_join_columns(demo):
+    _, _, out = demo
+    for name, _ in pyogrio.list_layers(out / GPKG_NAME):
+        fields = pyogrio.read_info(out / GPKG_NAME, layer=name)["fields"]
+        left = [f for f in fields if f.endswith(("_x", "_y"))]
+        assert not left, (name, left)
+    cores = pyogrio.read_info(out / GPKG_NAME, layer="cores")["fields"]
+    assert list(cores).count("n_intervals") == 1
 
 
 def test_area_polygon_and_user_transects_are_used(tmp_path):
@@ -310,3 +335,32 @@ def _core_xy(result, m):
     e = np.array([by_id[c].easting for c in m.core_ids])
     n = np.array([by_id[c].northing for c in m.core_ids])
     return e, n
+
+
+def test_field_names_carry_units(demo):
+    # Every number names its unit: depths in the project's depth unit, rank changes in
+    # ranks, rates in m/kyr; no bare "depth", "rate_low" or "rate_high".
+    _, _, out = demo
+    fields = {
+        name: set(pyogrio.read_info(out / GPKG_NAME, layer=name)["fields"])
+        for name, _ in pyogrio.list_layers(out / GPKG_NAME)
+    }
+    for name, names in fields.items():
+        assert not names & {"depth", "top_depth", "rate_low", "rate_high", "jump"}, name
+    assert {"top_depth_m", "base_depth_m", "mfs_depth_m"} <= fields["cores"]
+    assert "depth_m" in fields["core_slices"]
+    assert {"rate_low_m_per_kyr", "rate_high_m_per_kyr", "shift_bound"} <= fields[
+        "shoreline_shifts"
+    ]
+    assert {"net_shift_m", "net_normal_shift_m", "net_shift_bound"} <= fields["slice_pairs"]
+
+
+def test_one_grammatical_form_for_senses(demo):
+    _, result, out = demo
+    nouns = {"transgression", "regression", "stillstand", "uncertain", ""}
+    pairs = pyogrio.read_dataframe(out / GPKG_NAME, layer="slice_pairs")
+    assert set(pairs["sense"]) <= nouns
+    assert set(pairs["core_sense"].fillna("")) <= nouns
+    assert set(result.reading.cores["sense"]) <= nouns
+    shifts = pyogrio.read_dataframe(out / GPKG_NAME, layer="shoreline_shifts")
+    assert set(shifts["sense"]) <= nouns

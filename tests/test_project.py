@@ -28,7 +28,7 @@ def test_defaults_for_optional_tables():
     cfg = parse_config(_config())
     assert cfg.mapping == MappingSettings()
     assert cfg.migration == MigrationSettings()
-    assert cfg.scheme.name == "siliciclastic"
+    assert cfg.scheme.name == "siliciclastic_lithology"
     assert cfg.crs == pyproj.CRS("EPSG:32631")
     assert [s.name for s in cfg.surfaces] == ["s_young", "s_mid", "s_old"]
     assert cfg.surfaces[0].age_sd == 5.0 and cfg.surfaces[1].age_sd == 0.0
@@ -114,7 +114,7 @@ def test_builtin_scheme_with_track_and_colour_overrides():
     cfg = parse_config(
         _config(
             scheme={
-                "builtin": "siliciclastic",
+                "builtin": "siliciclastic_lithology",
                 "track": ["fine_sand", "silt"],
                 "colors": {"clay": "#102030"},
             }

@@ -350,5 +350,9 @@ def test_the_documented_example_project_checks_as_documented(tmp_path):
     assert sum(len(c.picks) for c in project.cores) == 10
     assert len(project.surfaces) == 3 and len(project.slices) == 3
     assert len(project.warnings) == 1
-    assert project.scheme.belts[4].color == "#2b4b7a"
+    assert project.scheme.name == "shoreface_shelf"
+    assert project.scheme.belts[5].color == "#2b4b7a"  # offshore, the documented override
+    # the example's facies words are ids and aliases in several spellings
+    ranks = {c.core_id: [i.rank for i in c.intervals] for c in project.cores}
+    assert ranks["LB-01"] == [4, 3, 1] and ranks["LB-02"] == [5, 3, 0]
     assert [s.erosional for s in project.surfaces] == [False, True, False]

@@ -171,7 +171,14 @@ def test_slice_pair_numbers_equal_the_geopackage(built):
         assert row["younger_slice"] == ref["younger_slice"]
         assert row["sense"] == (ref["sense"] or "\u2013")
         for col, text in row.items():
-            if col in ("older_slice", "younger_slice", "sense", "core_sense", "agreement"):
+            if col in (
+                "older_slice",
+                "younger_slice",
+                "sense",
+                "core_sense",
+                "agreement",
+                "net_shift_bound",
+            ):
                 continue
             assert _same(_number(text), float(ref[col])), (col, text, ref[col])
             checked += 1
@@ -192,8 +199,8 @@ def test_shift_numbers_equal_the_geopackage(built):
             "shift_low_m",
             "shift_high_m",
             "rate_m_per_kyr",
-            "rate_low",
-            "rate_high",
+            "rate_low_m_per_kyr",
+            "rate_high_m_per_kyr",
         ):
             assert _same(_number(row[col]), float(ref[col])), (col, row[col], ref[col])
 

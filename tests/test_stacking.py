@@ -48,7 +48,14 @@ def _core(core_id, ranks_top_down, thickness=2.0, picks=(), gaps=(), easting=0.0
     return Core(core_id, easting, 0.0, intervals=tuple(ivs), picks=pk)
 
 
-def _project(cores, surfaces=(), scheme="siliciclastic", depth_unit="m"):
+# The lithology schemes ask which boundary to track; these tests read ranks only.
+_TRACKS = {
+    "siliciclastic_lithology": ("coarse_sand", "fine_sand"),
+    "carbonate_lithology": ("grainstone", "packstone"),
+}
+
+
+def _project(cores, surfaces=(), scheme="siliciclastic_lithology", depth_unit="m"):
     crs = pyproj.CRS.from_user_input("EPSG:32631")
     return Project(
         name="test",
@@ -57,7 +64,7 @@ def _project(cores, surfaces=(), scheme="siliciclastic", depth_unit="m"):
         working_crs=crs,
         depth_unit=depth_unit,
         age_unit="ka",
-        scheme=builtin_scheme(scheme),
+        scheme=builtin_scheme(scheme, _TRACKS.get(scheme)),
         surfaces=tuple(surfaces),
         slices=(),
         cores=tuple(cores),
@@ -81,7 +88,7 @@ def test_coarse_to_fine_upward_is_deepening_transgressive_and_fining():
     reading, _ = _read([core])
     row = reading.cores.iloc[0]
     assert row["trend"] == "deepening-upward"
-    assert row["sense"] == "transgressive"
+    assert row["sense"] == "transgression"
     assert row["trend_grain"] == "fining-upward"
     assert row["slope_rank_per_m"] > 0
     assert row["rank_change"] == pytest.approx(4.0)
@@ -93,7 +100,7 @@ def test_fine_to_coarse_upward_is_shallowing_regressive_and_coarsening():
     reading, _ = _read([core])
     row = reading.cores.iloc[0]
     assert row["trend"] == "shallowing-upward"
-    assert row["sense"] == "regressive"
+    assert row["sense"] == "regression"
     assert row["trend_grain"] == "coarsening-upward"
     assert row["slope_rank_per_m"] < 0
 
@@ -366,8 +373,8 @@ def test_region_counts_and_missing_pick_located_by_age_model():
     assert region.loc[
         "S1-S2", ["n_cores", "n_deepening", "n_shallowing", "n_aggrading", "n_mixed"]
     ].tolist() == [3, 2, 0, 1, 0]
-    assert region.loc["S1-S2", "core_sense"] == "transgressive"
-    assert region.loc["S2-S3", "core_sense"] == "regressive"
+    assert region.loc["S1-S2", "core_sense"] == "transgression"
+    assert region.loc["S2-S3", "core_sense"] == "regression"
     b = reading.pair_trends.set_index(["core_id", "interval"])
     assert b.loc[("B", "S1-S2"), "top"] == pytest.approx(8.0)
     assert not b.loc[("B", "S1-S2"), "picked"]
@@ -394,7 +401,7 @@ def test_cross_check_flags():
     }
     out = cross_check(region, mapped)
     assert out["agreement"].tolist() == ["agree", "disagree", "disagree", "no_data", "agree"]
-    assert out["core_sense"].tolist() == ["transgressive", "transgressive", "regressive", "", ""]
+    assert out["core_sense"].tolist() == ["transgression", "transgression", "regression", "", ""]
     # A missing or None mapped sense is no data; a stillstand contradicts no core trend.
     out2 = cross_check(region.iloc[:2], {("S1", "S2"): None, ("S2", "S3"): "stillstand"})
     assert out2["agreement"].tolist() == ["no_data", "agree"]
@@ -422,7 +429,7 @@ def test_summary_lines_list_breaks_and_intervals():
     assert any("CORE-7 at 2.00 m: gravel -> clay (jump +4)" in ln for ln in lines)
     assert "nearest surface S2 2.00 m away" in text
     assert "S1-S2: 1 / 0 / 0 / 0 of 1 cores" in text
-    assert "deepening-upward (fining-upward), transgressive" in text
+    assert "deepening-upward (fining-upward), transgression" in text
 
 
 def test_settings_change_thresholds():

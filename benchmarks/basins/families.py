@@ -29,11 +29,11 @@ sea-level levels, the dip direction), never the kind of basin.
     sinks faster and faster, and a basin that tilts along strike one way and then the
     other; a sea level that wanders; 15 cores (sparse).
 ``carbonate_ramp``
-    paleomap's built-in ``carbonate_ramp`` scheme (all belts marine, the shoal edge
-    tracked): a carbonate factory that produces twenty times faster in the shoal than
-    in the basin and builds up to sea level, rounded antecedent highs, high-frequency
-    sea-level cycles on a slow rise, exposure with slow karst lowering at the
-    lowstands; 40 cores clustered along lines.
+    paleomap's built-in ``carbonate_lithology`` scheme (Dunham textures, all belts
+    marine, the grainstone edge tracked): a carbonate factory that produces twenty
+    times faster in the shoal than in the basin and builds up to sea level, rounded
+    antecedent highs, high-frequency sea-level cycles on a slow rise, exposure with
+    slow karst lowering at the lowstands; 40 cores clustered along lines.
 
 Accumulation rates never increase from one belt to the next basinward one across a
 boundary that must stay sharp: were the distal belt faster than the ground sinks and
@@ -305,7 +305,8 @@ def carbonate_ramp(rng):
         (0.6, 0.35, 0.12, 0.03),
         track=1,
         exposed_at_m=0.0,
-        builtin="carbonate_ramp",
+        # Dunham textures: paleomap's lithology-only carbonate scheme, with its track
+        builtin="carbonate_lithology",
     )
     count = int(rng.integers(4, 7))
     mounds = tuple(

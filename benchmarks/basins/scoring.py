@@ -264,6 +264,8 @@ def pair_scores(basin: Basin, outputs: BuildOutputs) -> pd.DataFrame:
                 sense=sense,
                 true_sense=true_sense,
                 sense_ok=sense == true_sense,
+                # "uncertain" (P10-P90 spans zero) does not claim a direction
+                sense_wrong=sense in ("transgression", "regression") and sense != true_sense,
                 pair_rate_m_per_kyr=float(p["rate_m_per_kyr"].iloc[0]) if len(p) else np.nan,
             )
         )
@@ -285,6 +287,8 @@ def summarise(slices: pd.DataFrame, pairs: pd.DataFrame, geographic: BuildOutput
         rate_error_median=float(np.nanmedian(pairs["relative_error"])),
         rate_error_worst=float(np.nanmax(pairs["relative_error"])),
         senses_right=int(pairs["sense_ok"].sum()),
+        senses_wrong=int(pairs["sense_wrong"].sum()),
+        senses_uncertain=int((pairs["sense"] == "uncertain").sum()),
         pairs=len(pairs),
         band_coverage=float(slices["coverage"].mean()),
         band_width=float(slices["band_width_spacings"].mean()),

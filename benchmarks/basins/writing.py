@@ -125,6 +125,8 @@ def _toml(basin: Basin, crs_name: str, mapping: dict) -> str:
     out += ["", "[scheme]"]
     if bands.builtin:
         out.append(f"builtin = {toml_value(bands.builtin)}")
+        if bands.track is not None:  # a lithology scheme asks which boundary to track
+            out.append(f"track = {toml_value(bands.boundary_name().split('|'))}")
     else:
         out.append(f"name = {toml_value(model.family)}")
         out.append("belts = [")

@@ -153,7 +153,7 @@ def _register() -> None:
     # Each command module adds itself here; imported lazily so `paleomap --help` stays quick.
     import importlib
 
-    for name in ("check", "build", "demo", "synth", "versions"):
+    for name in ("check", "build", "demo", "synth", "schemes", "versions"):
         try:
             module = importlib.import_module(f".{name}", __name__)
         except ModuleNotFoundError as exc:

@@ -59,9 +59,10 @@ def summary_lines(project: Project, samples: pd.DataFrame | None = None) -> list
         belts.append(f"{b.id} ({'marine' if b.marine else 'non-marine'})")
     lines.append(f"Scheme: {scheme.name}, {scheme.n_belts} belts, proximal to distal:")
     lines.append("  " + ", ".join(belts))
-    tracked = scheme.boundary_name(scheme.tracked_boundary)
-    kind = "the shoreline" if scheme.tracks_shoreline else "tracked boundary"
-    lines.append(f"  tracked boundary: {tracked} ({kind})")
+    for b in scheme.tracked_boundaries:
+        label = scheme.boundary_label(b)
+        label = "the shoreline" if label == "shoreline" else label
+        lines.append(f"  tracked boundary: {scheme.boundary_name(b)} ({label})")
 
     n_iv = sum(len(c.intervals) for c in project.cores)
     n_picks = sum(len(c.picks) for c in project.cores)
@@ -91,12 +92,54 @@ def summary_lines(project: Project, samples: pd.DataFrame | None = None) -> list
             f"{counts.get(sl.name, 0)} of {len(project.cores)} cores have a record"
         )
 
+    lines += coverage_lines(project, samples)
+
     if project.warnings:
         lines.append(f"Warnings: {len(project.warnings)}")
         lines += [f"  - {w}" for w in project.warnings]
     else:
         lines.append("Warnings: none")
     return lines
+
+
+def coverage_lines(project: Project, samples: pd.DataFrame) -> list[str]:
+    """Slices at which the tracked boundary crosses no core, with free ages to add.
+
+    Examples
+    --------
+    >>> coverage_lines(project, samples)  # doctest: +SKIP
+    """
+    from ..coverage import boundary_coverage, suggest_free_ages
+
+    scheme = project.scheme
+    b = scheme.tracked_boundary
+    label = scheme.boundary_label(b)
+    cover = boundary_coverage(samples, b).set_index("slice") if len(samples) else None
+    if cover is None or cover["crosses"].all():
+        return []
+    advice = suggest_free_ages(project, samples=samples)
+    current = [f'"{s.surface}"' if s.surface else f"{s.age:g}" for s in project.slices]
+    added = [f"{a:g}" for ages in advice.values() for a in ages]
+    out = [
+        f"The {label} ({scheme.boundary_name(b)}) crosses no core at "
+        f"{len(advice)} slice(s); its position there is only a bound:"
+    ]
+    for name, ages in advice.items():
+        row = cover.loc[name]
+        side = "distal (basinward)" if row["n_distal"] else "proximal (landward)"
+        text = f"  {name}: every core with a record is on the {side} side"
+        if ages:
+            listed = ", ".join(f"{a:g}" for a in ages)
+            text += f"; it crosses the cores at {listed} {project.age_unit}"
+        else:
+            text += "; no age between the surfaces has cores on both sides"
+        out.append(text)
+    if added:
+        out.append(
+            "  Add free-age slices where it crosses the cores, e.g. [slices] at = "
+            f"[{', '.join(current + added)}]"
+        )
+    return out
 
 
 @click.command("check")

@@ -8,11 +8,12 @@ from pathlib import Path
 import click
 
 from ..errors import InputError, Problem
+from ..scheme import ENVIRONMENT_SCHEMES
 
 __all__ = ["command"]
 
 _LAYOUTS = ("random", "grid", "clusters")
-_SCHEMES = ("siliciclastic", "carbonate_ramp")
+_SCHEMES = ENVIRONMENT_SCHEMES
 _AGE_UNITS = ("ka", "Ma")
 
 # (option, parameter of make_basin, default)
@@ -20,7 +21,7 @@ _MODEL_OPTIONS = (
     ("--cores", "n_cores", 40),
     ("--layout", "layout", "random"),
     ("--seed", "seed", 0),
-    ("--scheme", "scheme", "siliciclastic"),
+    ("--scheme", "scheme", "shoreface_shelf"),
     ("--surfaces", "surfaces", 8),
     ("--gradient", "gradient_m_per_km", 1.5),
     ("--dip-azimuth", "dip_azimuth_deg", 90.0),
@@ -76,9 +77,9 @@ def _choice(raw, option, allowed, log):
 @click.option("--seed", default="0", show_default=True, help="Seed of the core positions.")
 @click.option(
     "--scheme",
-    default="siliciclastic",
+    default="shoreface_shelf",
     show_default=True,
-    help="Facies scheme: siliciclastic or carbonate_ramp.",
+    help="Facies scheme (an environment scheme): shoreface_shelf or carbonate_ramp.",
 )
 @click.option(
     "--sea-level",

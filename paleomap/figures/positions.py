@@ -95,7 +95,13 @@ def _draw(ax, result, transect, *, label_steps: bool):
             # alternate above and below the line so neighbouring labels do not meet
             up = k % 2 == 0
             ax.annotate(
-                rate_text(r.rate_m_per_kyr, r.rate_low, r.rate_high, unit=False, sep="\n"),
+                rate_text(
+                    r.rate_m_per_kyr,
+                    r.rate_low_m_per_kyr,
+                    r.rate_high_m_per_kyr,
+                    unit=False,
+                    sep="\n",
+                ),
                 ((a0 + a1) / 2, (y0 + y1) / 2),
                 xytext=(0, 7 if up else -7),
                 textcoords="offset points",

@@ -27,8 +27,8 @@ def belt_cmap(scheme):
     """A listed colormap with one colour per belt (rank ``k`` is colour ``k``).
 
     >>> from paleomap.scheme import builtin_scheme
-    >>> belt_cmap(builtin_scheme("siliciclastic")).N
-    5
+    >>> belt_cmap(builtin_scheme("shoreface_shelf")).N
+    6
     """
     from matplotlib.colors import ListedColormap
 

@@ -180,6 +180,20 @@ def slice_map(result: BuildResult, which=0, ax: Axes | None = None) -> Axes:
                 zorder=5,
             )
 
+        control = getattr(m, "control", ())
+        if control:
+            # control points are interpretations: a star, never a core's circle
+            ax.scatter(
+                [c[1] for c in control],
+                [c[2] for c in control],
+                s=CORE_MARKER_SIZE * 1.6,
+                marker="*",
+                c=[scheme.belts[c[3]].color for c in control],
+                edgecolors=EDGE_COLOR,
+                linewidths=0.7,
+                zorder=7,
+            )
+
         w, so, e, n = grid.area.bounds
         set_map_extent(ax, (w, so, e, n))
         coordinate_labels(ax, grid.crs if grid.crs is not None else project.working_crs)
@@ -247,6 +261,19 @@ def slice_map(result: BuildResult, which=0, ax: Axes | None = None) -> Axes:
                 )
             )
             labels.append("core without record")
+        if control:
+            handles.append(
+                Line2D(
+                    [],
+                    [],
+                    linestyle="none",
+                    marker="*",
+                    markersize=8,
+                    markerfacecolor="white",
+                    markeredgecolor=EDGE_COLOR,
+                )
+            )
+            labels.append("control point (interpretation)")
         side_legend(ax, handles, labels, title=f"Belts ({scheme.name} scheme)")
         scale_bar(ax)
         north_arrow(ax)

@@ -36,6 +36,7 @@ from ..agemodel import build_age_models, sample_slices
 from ..cores import build_cores, parse_number
 from ..errors import ProblemLog
 from ..project import Project, ProjectConfig, TomlLocator, parse_config, working_crs_for
+from ..scheme import name_key, suggest_names
 from .assemble import read_tables
 from .sources import header_names
 
@@ -177,6 +178,10 @@ def load_project(path: str | os.PathLike) -> Project:
     elif cores_table is not None or tables.intervals is not None or tables.picks is not None:
         logger.debug("a core table is missing; cross-table checks are skipped")
 
+    control = ()
+    if cfg.control_points is not None:
+        control = _read_control_points(cfg, source, working, log, checksums, root)
+
     area = None
     grid = cfg.grid
     if grid is not None and grid.area is not None:
@@ -231,6 +236,8 @@ def load_project(path: str | os.PathLike) -> Project:
         grid=grid,
         mapping=cfg.mapping,
         migration=migration,
+        reading=cfg.reading,
+        control_points=control,
         area=area,
         transect_lines=transect_lines,
         config_text=text,
@@ -762,16 +769,41 @@ def _count(value: float) -> str:
     return f"{value:,.0f}" if value < 1e15 else f"{value:.3g}"
 
 
+def _read_control_points(cfg, source, working, log, checksums, root) -> tuple:
+    """The control-points file, validated; () when it cannot be read (problems logged)."""
+    from ..control import CONTROL_COLUMNS, build_control_points
+
+    name = cfg.control_points
+    target = source("inputs.control_points", name)
+    if target is None:
+        return ()
+    table = _read_csv_checked(target, name, *CONTROL_COLUMNS, log, checksums, root)
+    if table is None or cfg.crs is None or working is None:
+        return ()
+    table = _project_cores(table, cfg.crs, working)
+    scheme = cfg.scheme if cfg.scheme is not None else _belt_names(cfg)
+    if scheme is None:
+        return ()
+    return build_control_points(table, scheme, cfg.surfaces or (), cfg.slices or (), name, log)
+
+
 class _BeltNames:
     """Facies lookup over the belts of a scheme that broke a rule (see Scheme.rank)."""
 
     def __init__(self, belts):
         self.name = "custom"
         self.ids = tuple(b.id for b in belts)
-        self._lookup = {n: r for r, b in enumerate(belts) for n in b.names()}
+        self._names = [n for b in belts for n in b.names()]
+        self._lookup = {k: r for r, b in enumerate(belts) for k in b.keys()}
 
     def rank(self, facies: str) -> int | None:
-        return self._lookup.get(str(facies).strip().lower())
+        return self._lookup.get(name_key(facies))
+
+    def names(self) -> list[str]:
+        return list(self._names)
+
+    def suggest(self, facies: str) -> list[str]:
+        return suggest_names(facies, self._names)
 
 
 def _belt_names(cfg: ProjectConfig):

@@ -17,13 +17,18 @@ besides the belt colours (which come from the facies scheme):
 
 - shoreline shifts by ``sense`` (:data:`SENSE_COLORS`): transgression (landward)
   blue ``#0072b2``, regression (seaward) orange ``#e69f00``, stillstand grey
-  ``#8c8c8c``. Blue and orange are taken from the colour-blind-safe set of
-  Okabe & Ito (2008, "Color Universal Design"); they differ in lightness and along
-  the blue-yellow axis, which deuteranopes and protanopes keep, and the sea-ward /
+  ``#8c8c8c``, uncertain (P10-P90 spans zero) pale grey ``#d9d9d9``. Blue and
+  orange are taken from the colour-blind-safe set of Okabe & Ito (2008, "Color
+  Universal Design"); they differ in lightness and along the blue-yellow axis,
+  which deuteranopes and protanopes keep, and the sea-ward /
   land-ward reading (water blue, sand orange) matches the belt palette;
 - shorelines in the palette's shoreline red, the shoreline band the same red
   at 30 % opacity, transects dark grey dashed, cores white circles with a dark
-  outline, core contacts reddish-purple triangles (``#cc79a7``, Okabe & Ito 2008).
+  outline, core contacts reddish-purple triangles (``#cc79a7``, Okabe & Ito 2008);
+- suggested turnarounds as squares by ``kind`` (:data:`TURNAROUND_COLORS`): maximum
+  flooding blue, maximum regressive orange; gaps (no recovery) grey crosses; control
+  points (the user's pseudo-cores, interpretations rather than observations) green
+  stars (``#009e73``, Okabe & Ito 2008), so they are never read as cores.
 
 Examples
 --------
@@ -44,6 +49,7 @@ from ..figures.palette import SHORELINE_COLOR
 __all__ = [
     "OGC_NS",
     "SENSE_COLORS",
+    "TURNAROUND_COLORS",
     "SE_NS",
     "SLD_MIME_TYPE",
     "SLD_NS",
@@ -72,14 +78,27 @@ SENSE_COLORS: dict[str, str] = {
     "transgression": "#0072b2",
     "regression": "#e69f00",
     "stillstand": "#8c8c8c",
+    "uncertain": "#d9d9d9",
 }
-"""Colours of shoreline shifts by sense (Okabe & Ito 2008 blue and orange, and a grey)."""
+"""Colours of shoreline shifts by sense (Okabe & Ito 2008 blue and orange, a grey, and a
+pale grey where the P10-P90 range of the shift spans zero)."""
 
 _SENSE_LABELS = {
     "transgression": "Transgression (landward)",
     "regression": "Regression (seaward)",
     "stillstand": "Stillstand",
+    "uncertain": "Uncertain (P10-P90 spans zero)",
 }
+
+TURNAROUND_COLORS: dict[str, str] = {
+    "maximum flooding": "#0072b2",
+    "maximum regressive": "#e69f00",
+}
+"""Colours of suggested turnarounds by kind: the transgression blue at a maximum flooding
+surface (the end of a transgression), the regression orange at a maximum regressive one."""
+
+_GAP_COLOR = "#8c8c8c"
+_CONTROL_COLOR = "#009e73"
 
 # The marks every SE renderer knows (OGC 05-077r4, 11.3.2).
 _WELL_KNOWN_MARKS = ("square", "circle", "triangle", "star", "cross", "x")
@@ -636,8 +655,8 @@ def belt_categories(scheme) -> list[tuple[str, str, str]]:
     Examples
     --------
     >>> from paleomap.scheme import builtin_scheme
-    >>> belt_categories(builtin_scheme("siliciclastic"))[0][0]
-    'gravel'
+    >>> belt_categories(builtin_scheme("shoreface_shelf"))[0][0]
+    'alluvial_plain'
     """
     return [(b.id, b.label or b.id, b.color) for b in scheme.belts]
 
@@ -654,16 +673,17 @@ def layer_styles(belts: Sequence[tuple[str, str, str]]) -> dict[str, str]:
     -------
     dict of str to str
         Layer name to SLD document, for ``cores``, ``core_slices``, ``core_contacts``,
-        ``facies_belts``, ``shorelines``, ``shoreline_bands``, ``transects`` and
-        ``shoreline_shifts``.
+        ``turnarounds``, ``gaps``, ``control_points``, ``facies_belts``, ``shorelines``,
+        ``shoreline_bands``, ``transects`` and ``shoreline_shifts``.
 
     Examples
     --------
     >>> styles = layer_styles([("sand", "Sand", "#d9b56e"), ("mud", "Mud", "#1d4f7c")])
     >>> sorted(styles)[:3]
-    ['core_contacts', 'core_slices', 'cores']
+    ['control_points', 'core_contacts', 'core_slices']
     """
     senses = [(s, _SENSE_LABELS[s], c) for s, c in SENSE_COLORS.items()]
+    turns = [(k, k.capitalize() + " surface (suggested)", c) for k, c in TURNAROUND_COLORS.items()]
     return {
         "cores": point_sld("cores", "#ffffff", size=7, title="Cores"),
         "core_slices": categorized_point_sld(
@@ -675,6 +695,14 @@ def layer_styles(belts: Sequence[tuple[str, str, str]]) -> dict[str, str]:
             size=8,
             shape="triangle",
             title="Contacts between logged belts",
+        ),
+        "turnarounds": categorized_point_sld(
+            "turnarounds", "kind", turns, size=8, shape="square", title="Suggested turnarounds"
+        ),
+        "gaps": point_sld("gaps", _GAP_COLOR, size=6, shape="x", title="Gaps (no recovery)"),
+        # control points are interpretations, not cores: a different mark and colour
+        "control_points": point_sld(
+            "control_points", _CONTROL_COLOR, size=9, shape="star", title="Control points"
         ),
         "facies_belts": categorized_fill_sld("facies_belts", "belt", belts, title="Facies belts"),
         "shorelines": line_sld("shorelines", SHORELINE_COLOR, width=1.8, title="Shorelines"),

@@ -4,12 +4,14 @@ A rank profile is the list of logged intervals of a core (or of a depth window o
 three top-down arrays: ``tops``, ``bases`` and ``ranks``. Gaps (no recovery) stay gaps:
 nothing is interpolated across them.
 
-Cleaning (used by the turnaround search and by the ``mixed`` test of the trends) has two
-steps, both documented in ``docs/stacking.md``:
+Cleaning (used by the turnaround search and by the ``mixed`` test of the trends) has three
+steps, all documented in ``docs/stacking.md``:
 
 1. **Runs**: consecutive intervals of the same rank are merged into one run (across a
    gap too, since the belt is the same on both sides).
-2. **Thin spikes** are removed: a run that lies beyond both its neighbours (more distal
+2. **Noise**: runs thinner than the noise thickness scale are absorbed by their
+   neighbours, thinnest first (:meth:`RankProfile.smoothed`).
+3. **Thin spikes** are removed: a run that lies beyond both its neighbours (more distal
    than both, or more proximal than both) by at least ``min_change`` ranks and is thinner
    than ``spike_fraction`` times the thinner neighbour is dropped, its thickness shared
    equally by the two neighbours, and the runs are merged again; this repeats until none
@@ -108,6 +110,49 @@ class RankProfile:
         idx = np.flatnonzero(starts)
         ends = np.r_[idx[1:], len(self)] - 1
         return RankProfile(self.tops[idx], self.bases[ends], self.ranks[idx])
+
+    def smoothed(self, noise_thickness: float) -> RankProfile:
+        """Runs thinner than ``noise_thickness`` removed, thinnest first.
+
+        An alternation of beds thinner than the noise scale (thin storm beds, a logging
+        step flipping between two belts) is not a change of environment at the scale a
+        turnaround is read. The thinnest run thinner than ``noise_thickness`` is dropped,
+        its thickness shared equally by its two neighbours (or given whole to its one
+        neighbour at the top or base of the profile), the runs are merged again, and this
+        repeats until every run is at least ``noise_thickness`` thick or one run is left.
+        Gaps stay where they are: a run is only ever widened into its neighbour's side.
+
+        Examples
+        --------
+        >>> p = RankProfile.from_arrays([0, 3, 3.5, 4, 4.5, 8], [3, 3.5, 4, 4.5, 8, 11],
+        ...                             [1, 2, 1, 2, 3, 3])
+        >>> q = p.smoothed(1.0)
+        >>> q.ranks.tolist(), q.tops.tolist()
+        ([1, 3], [0.0, 4.25])
+        """
+        prof = self.runs()
+        if noise_thickness <= 0:
+            return prof
+        while len(prof) >= 2:
+            th = prof.thicknesses
+            thin = np.flatnonzero(th < noise_thickness)
+            if thin.size == 0:
+                break
+            k = int(thin[np.argmin(th[thin])])
+            tops = prof.tops.copy()
+            bases = prof.bases.copy()
+            if k == 0:
+                tops[1] = tops[0]
+            elif k == len(prof) - 1:
+                bases[k - 1] = bases[k]
+            else:
+                split = 0.5 * (prof.tops[k] + prof.bases[k])
+                bases[k - 1] = split
+                tops[k + 1] = split
+            keep = np.ones(len(prof), dtype=bool)
+            keep[k] = False
+            prof = RankProfile(tops[keep], bases[keep], prof.ranks[keep]).runs()
+        return prof
 
     def despiked(self, min_change: int = 2, spike_fraction: float = 0.25) -> RankProfile:
         """Runs with thin spikes removed (see the module docstring)."""

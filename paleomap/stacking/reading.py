@@ -31,7 +31,7 @@ from .region import region_summary, surface_alignment, surface_pairs
 from .trends import classify_trend, grain_word, sense_word
 from .turnarounds import find_turnarounds
 
-__all__ = ["CoreReading", "ReadingSettings", "read_cores", "summary_lines"]
+__all__ = ["DEFAULT_SCALES_M", "CoreReading", "ReadingSettings", "read_cores", "summary_lines"]
 
 _log = logging.getLogger(__name__)
 
@@ -106,6 +106,8 @@ _TURN_COLUMNS = [
     "belt",
     "change_below",
     "change_above",
+    "confidence",
+    "cycle",
     "nearest_surface",
     "surface_distance",
     "easting",
@@ -139,20 +141,59 @@ class ReadingSettings:
     spike_fraction : float
         A run thinner than this fraction of both neighbours, and beyond both by
         ``min_change`` ranks, is a thin spike and ignored by the turnaround search.
-    turnaround_tolerance : float
-        Depth units by which a turnaround's span is widened when tied to a pick.
+    pick_tolerance : float
+        Depth units by which a turnaround's span is widened when tied to a pick (the
+        "at a pick" tolerance; ``[reading] pick_tolerance`` in the project).
+    noise_thickness : float
+        Depth units below which a run is noise to the turnaround search
+        (``[reading] noise_thickness``).
+
+    The defaults of the three depth scales are in metres
+    (:data:`DEFAULT_SCALES_M`); :meth:`for_project` converts them to the project's depth
+    unit and applies the project's ``[reading]`` table.
 
     Examples
     --------
     >>> ReadingSettings().min_change
     2
+    >>> s = ReadingSettings.for_depth_unit("ft")
+    >>> round(s.noise_thickness, 2), round(s.pick_tolerance, 2)
+    (1.97, 3.28)
     """
 
     contact_tolerance: float = 0.1
     min_trend: float = 0.5
     min_change: int = 2
     spike_fraction: float = 0.25
-    turnaround_tolerance: float = 1.0
+    pick_tolerance: float = 1.0
+    noise_thickness: float = 0.6
+
+    @classmethod
+    def for_depth_unit(cls, depth_unit: str, **overrides) -> ReadingSettings:
+        """The defaults converted to ``depth_unit``, then ``overrides`` (depth unit)."""
+        per_m = 1.0 / DEPTH_UNITS.get(depth_unit, 1.0)
+        values = {k: v * per_m for k, v in DEFAULT_SCALES_M.items()}
+        values.update({k: v for k, v in overrides.items() if v is not None})
+        return cls(**values)
+
+    @classmethod
+    def for_project(cls, project: Project) -> ReadingSettings:
+        """The settings of a project: defaults in its depth unit and its ``[reading]``."""
+        r = getattr(project, "reading", None)
+        over = {}
+        if r is not None:
+            over = dict(
+                noise_thickness=r.noise_thickness,
+                pick_tolerance=r.pick_tolerance,
+                contact_tolerance=r.contact_tolerance,
+            )
+        return cls.for_depth_unit(project.depth_unit, **over)
+
+
+DEFAULT_SCALES_M = {"contact_tolerance": 0.1, "pick_tolerance": 1.0, "noise_thickness": 0.6}
+"""Default depth scales of the core reading, in metres. The noise scale, 0.6 m (about
+2 ft), spans four steps of a log described every 0.5 ft, so an alternation of one or
+two steps is noise while a bed of a metre is read."""
 
 
 @dataclass(frozen=True)
@@ -281,7 +322,7 @@ def read_cores(
     >>> reading = read_cores(project)  # doctest: +SKIP
     >>> reading.region[["interval", "n_deepening", "n_shallowing"]]  # doctest: +SKIP
     """
-    st = settings or ReadingSettings()
+    st = settings or ReadingSettings.for_project(project)
     if age_models is None:
         from ..agemodel import build_age_models
 
@@ -296,7 +337,9 @@ def read_cores(
     contacts, gaps, intervals, cores, turns, picks, pair_rows = [], [], [], [], [], [], []
 
     def classify(profile: RankProfile):
-        return classify_trend(profile, st.min_trend, st.min_change, st.spike_fraction)
+        return classify_trend(
+            profile, st.min_trend, st.min_change, st.spike_fraction, st.noise_thickness
+        )
 
     for core in project.cores:
         model = age_models.get(core.core_id)
@@ -388,7 +431,7 @@ def read_cores(
             )
 
         whole = classify(full)
-        tt = find_turnarounds(full, st.min_change, st.spike_fraction)
+        tt = find_turnarounds(full, st.min_change, st.spike_fraction, st.noise_thickness)
         for ta in tt:
             name, dist = _nearest_pick(core, ta.depth)
             turns.append(
@@ -403,6 +446,8 @@ def read_cores(
                     "belt": ids[ta.rank],
                     "change_below": ta.change_below,
                     "change_above": ta.change_above,
+                    "confidence": ta.confidence,
+                    "cycle": ta.cycle,
                     "nearest_surface": name,
                     "surface_distance": dist,
                     **pos,
@@ -443,7 +488,7 @@ def read_cores(
         intervals=pd.DataFrame(intervals, columns=_INTERVAL_COLUMNS),
         cores=pd.DataFrame(cores, columns=_CORE_COLUMNS),
         turnarounds=turn_df,
-        surfaces=surface_alignment(turn_df, pick_df, project.surfaces, st.turnaround_tolerance),
+        surfaces=surface_alignment(turn_df, pick_df, project.surfaces, st.pick_tolerance),
         region=region_summary(pair_df, project.surfaces),
         pair_trends=pair_df,
         depth_unit=project.depth_unit,
@@ -514,7 +559,7 @@ def summary_lines(reading: CoreReading, scheme: Scheme) -> list[str]:
             )
             if r.core_sense:
                 trend = (
-                    "deepening-upward" if r.core_sense == "transgressive" else ("shallowing-upward")
+                    "deepening-upward" if r.core_sense == "transgression" else ("shallowing-upward")
                 )
                 word = grain_word(trend, scheme.family)
                 text += f"; mostly {trend}" + (f" ({word})" if word else "")

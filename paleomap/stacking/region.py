@@ -6,12 +6,14 @@ Rules
   ``"<older>-<younger>"`` (the older surface lies below).
 * **Counts**: per pair, the number of cores with a trend in that interval and how many of
   them are deepening-upward, shallowing-upward, aggrading and mixed. The cores' sense is
-  ``"transgressive"`` when more than half of the counted cores deepen upward,
-  ``"regressive"`` when more than half shallow upward, else ``""``.
+  ``"transgression"`` when more than half of the counted cores deepen upward,
+  ``"regression"`` when more than half shallow upward, else ``""`` (senses are nouns
+  everywhere, in the cores' columns as in the map's).
 * **Cross-check** against the mapped shoreline shift of the same pair
-  (``"transgression"``, ``"regression"`` or ``"stillstand"``): ``"disagree"`` where the
-  cores are transgressive while the map regresses, or regressive while the map
-  transgresses; ``"no_data"`` where the pair has no counted core or no mapped sense;
+  (``"transgression"``, ``"regression"``, ``"stillstand"`` or ``"uncertain"``):
+  ``"disagree"`` where the cores record a transgression while the map regresses, or a
+  regression while the map transgresses; ``"no_data"`` where the pair has no counted
+  core or no mapped sense; ``"map_uncertain"`` where the map's P10-P90 shift spans zero;
   ``"agree"`` otherwise (a stillstand or a core majority of aggrading/mixed contradicts
   neither).
 * **Turnaround ties**: a core's suggested MFS or MRS lies at a surface when the surface's
@@ -44,10 +46,10 @@ __all__ = [
     "surface_pairs",
 ]
 
-MAPPED_SENSES = ("transgression", "regression", "stillstand")
+MAPPED_SENSES = ("transgression", "regression", "stillstand", "uncertain")
 """Accepted values of the mapped shoreline sense in :func:`cross_check`."""
 
-AGREEMENT_FLAGS = ("agree", "disagree", "no_data")
+AGREEMENT_FLAGS = ("agree", "disagree", "no_data", "map_uncertain")
 """Values of the ``agreement`` column of :func:`cross_check`."""
 
 _REGION_COLUMNS = [
@@ -80,9 +82,9 @@ def surface_pairs(surfaces: Sequence[Surface]) -> list[tuple[Surface, Surface]]:
 
 def _sense(n: int, n_deep: int, n_shallow: int) -> str:
     if n > 0 and n_deep > n / 2:
-        return "transgressive"
+        return "transgression"
     if n > 0 and n_shallow > n / 2:
-        return "regressive"
+        return "regression"
     return ""
 
 
@@ -202,8 +204,10 @@ def cross_check(region: pd.DataFrame, mapped: Mapping[tuple[str, str], str | Non
         ms = mapped.get((row.older_surface, row.younger_surface)) or ""
         if int(row.n_cores) == 0 or not ms:
             flag = "no_data"
-        elif (cs == "transgressive" and ms == "regression") or (
-            cs == "regressive" and ms == "transgression"
+        elif ms == "uncertain":
+            flag = "map_uncertain"
+        elif (cs == "transgression" and ms == "regression") or (
+            cs == "regression" and ms == "transgression"
         ):
             flag = "disagree"
         else:

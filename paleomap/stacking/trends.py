@@ -58,7 +58,7 @@ TREND_CLASSES = ("deepening-upward", "shallowing-upward", "aggrading", "mixed")
 _MAX_FIT = 2000
 
 _GRAIN = {"deepening-upward": "fining-upward", "shallowing-upward": "coarsening-upward"}
-_SENSE = {"deepening-upward": "transgressive", "shallowing-upward": "regressive"}
+_SENSE = {"deepening-upward": "transgression", "shallowing-upward": "regression"}
 
 
 @dataclass(frozen=True)
@@ -128,6 +128,7 @@ def classify_trend(
     min_trend: float = 0.5,
     min_change: int = 2,
     spike_fraction: float = 0.25,
+    noise_thickness: float = 0.0,
 ) -> Trend:
     """The stacking trend of a rank profile (rule in the module docstring).
 
@@ -136,7 +137,7 @@ def classify_trend(
     profile : RankProfile
     min_trend : float
         Smallest fitted rank change called a trend (ranks).
-    min_change, spike_fraction
+    min_change, spike_fraction, noise_thickness
         Passed to :func:`~paleomap.stacking.turnarounds.find_turnarounds`.
 
     Examples
@@ -156,7 +157,7 @@ def classify_trend(
         u, rr, w = _resampled(profile, _MAX_FIT)
     b = weighted_theil_sen(u, rr, w) + 0.0  # + 0.0 turns -0.0 into 0.0
     change = float(b * (u.max() - u.min())) + 0.0
-    if find_turnarounds(profile, min_change, spike_fraction):
+    if find_turnarounds(profile, min_change, spike_fraction, noise_thickness):
         return Trend("mixed", b, change, n)
     if abs(change) < min_trend:
         return Trend("aggrading", b, change, n)
@@ -184,11 +185,13 @@ def grain_word(trend: str, family: str) -> str:
 
 
 def sense_word(trend: str) -> str:
-    """``"transgressive"`` / ``"regressive"`` for a deepening / shallowing trend, else "".
+    """``"transgression"`` / ``"regression"`` for a deepening / shallowing trend, else "".
+
+    Senses are nouns everywhere (cores and maps alike), so columns compare directly.
 
     Examples
     --------
     >>> sense_word("shallowing-upward")
-    'regressive'
+    'regression'
     """
     return _SENSE.get(trend, "")

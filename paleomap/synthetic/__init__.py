@@ -22,7 +22,7 @@ Examples
 >>> from paleomap.synthetic import make_basin
 >>> basin = make_basin(n_cores=10, seed=2, truth_cell_m=500.0)
 >>> basin.scheme.name, len(basin.cores)
-('siliciclastic', 10)
+('shoreface_shelf', 10)
 """
 
 from .basin import SyntheticBasin, make_basin

@@ -259,7 +259,7 @@ class SyntheticBasin:
         Examples
         --------
         >>> b = make_basin(n_cores=5, relief_amplitude_m=0.0, truth_cell_m=1000.0,
-        ...                rates_m_per_kyr=(0, 0, 0, 0, 0), centre_elevation_m=-6.0)
+        ...                rates_m_per_kyr=(0,) * 6, centre_elevation_m=-6.0)
         >>> line = b.dip_line(0.0)
         >>> round(b.shoreline_position(line, b.sea_level.start_age), 6)
         20000.0
@@ -350,7 +350,7 @@ def make_basin(
     n_cores: int = 40,
     layout: str = "random",
     seed: int = 0,
-    scheme: str | Scheme = "siliciclastic",
+    scheme: str | Scheme = "shoreface_shelf",
     levels_m: Sequence[float] | None = None,
     rates_m_per_kyr: Sequence[float] | None = None,
     sea_level: SeaLevelHistory | Sequence[tuple[float, float]] | None = None,
@@ -388,7 +388,8 @@ def make_basin(
     seed : int
         Seed of the only random choices: core positions.
     scheme : str or Scheme
-        ``"siliciclastic"``, ``"carbonate_ramp"`` or a custom :class:`Scheme`.
+        ``"shoreface_shelf"``, ``"carbonate_ramp"`` or a :class:`Scheme` (a lithology
+        scheme with its track, or a custom one).
     levels_m, rates_m_per_kyr : sequence of float, optional
         Boundary elevations relative to sea level and accumulation rates per belt
         (see :class:`~paleomap.synthetic.deposition.FaciesBands`); defaults for the

@@ -1,6 +1,7 @@
 """The bundled demo region: the invented Orvenna Shelf of the Kaldrith Basin.
 
-An imaginary, Quaternary-like siliciclastic shelf dipping east-south-east, with
+An imaginary, Quaternary-like wave-dominated shoreface and shelf dipping
+east-south-east, with
 lobes and embayments along strike and gentle subsidence basinward, through three
 rises and two falls of sea level over 96 kyr. Made by the forward model with a
 fixed seed; ``demo_region/`` in the repository holds the written files and
@@ -28,7 +29,7 @@ DEMO_SETTINGS: dict = {
     "n_cores": 44,
     "layout": "random",
     "seed": 11,
-    "scheme": "siliciclastic",
+    "scheme": "shoreface_shelf",
     "sea_level": [
         (96.0, 2.0),
         (84.0, -10.0),

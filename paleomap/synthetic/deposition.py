@@ -16,11 +16,11 @@ subdivided where needed).
 Examples
 --------
 >>> from paleomap.scheme import builtin_scheme
->>> bands = FaciesBands.default(builtin_scheme("siliciclastic"))
+>>> bands = FaciesBands.default(builtin_scheme("shoreface_shelf"))
 >>> bands.levels_m
-(15.0, 0.0, -8.0, -30.0)
+(10.0, 0.0, -3.0, -12.0, -30.0)
 >>> bands.rank_of([20.0, 0.0, -1.0, -100.0]).tolist()
-[0, 1, 2, 4]
+[0, 1, 2, 5]
 """
 
 from __future__ import annotations
@@ -38,18 +38,32 @@ __all__ = ["DEFAULT_BANDS", "FaciesBands"]
 DEFAULT_BANDS = {
     # Elevation of each boundary relative to sea level (m), proximal to distal, and the
     # accumulation rate of each belt (m/kyr).
-    # Siliciclastic shelf (common practice): alluvial gravel above about +15 m, fluvial and
-    # coastal-plain sand from sea level to +15 m, beach and shoreface sand down to
-    # fair-weather wave base (-8 m), offshore-transition silt down to storm wave base
-    # (-30 m), offshore clay below. Rates are our choice: highest at the shoreface, lower
-    # on the coastal plain and offshore; over 1-100 kyr spans they are of the order
-    # measured on shelves (Sadler 1981 shows rates fall as the span grows; from memory).
-    "siliciclastic": ((15.0, 0.0, -8.0, -30.0), (0.03, 0.05, 0.15, 0.10, 0.04)),
-    # Carbonate ramp (common practice): grainstone shoals from sea level to -5 m,
-    # packstone to -20 m, wackestone to -50 m, lime mudstone below. The carbonate factory
-    # is most productive in the shallow photic zone, so rates fall basinward; nothing
-    # accumulates on ground above sea level (exposure).
-    "carbonate_ramp": ((-5.0, -20.0, -50.0), (0.30, 0.20, 0.10, 0.03)),
+    # Wave-dominated shoreface profile (common practice): alluvial plain above about
+    # +10 m, coastal plain from sea level to +10 m, foreshore between low and high tide
+    # (0 to -3 m), shoreface down to fair-weather wave base (-12 m), offshore transition
+    # down to storm wave base (-30 m), offshore below. Rates are our choice: highest at
+    # the shoreface, lower on the plains and offshore; over 1-100 kyr spans they are of
+    # the order measured on shelves (Sadler 1981 shows rates fall as the span grows;
+    # from memory).
+    "shoreface_shelf": (
+        (10.0, 0.0, -3.0, -12.0, -30.0),
+        (0.03, 0.05, 0.12, 0.15, 0.10, 0.04),
+    ),
+    # Carbonate ramp after Burchette & Wright (1992, from memory): sabkha and tidal flat
+    # above sea level, the inner ramp's lagoon (0 to -4 m) and shoal (to fair-weather
+    # wave base, -10 m), mid ramp to storm wave base (-30 m), outer ramp to -80 m, basin
+    # below. The carbonate factory is most productive in the shallow photic zone, so
+    # rates peak on the shoal and fall basinward; a sabkha builds up slowly.
+    "carbonate_ramp": (
+        (0.0, -4.0, -10.0, -30.0, -80.0),
+        (0.02, 0.15, 0.30, 0.15, 0.05, 0.02),
+    ),
+    # The lithology schemes, for a basin built with one of them and a track: grain-size
+    # classes of a shelf (gravel above +15 m, coarse sand to sea level, fine sand to
+    # -8 m, silt to -30 m, clay below), and Dunham textures of an all-marine ramp
+    # (grainstone to -5 m, packstone to -20 m, wackestone to -50 m, mudstone below).
+    "siliciclastic_lithology": ((15.0, 0.0, -8.0, -30.0), (0.03, 0.05, 0.15, 0.10, 0.04)),
+    "carbonate_lithology": ((-5.0, -20.0, -50.0), (0.30, 0.20, 0.10, 0.03)),
 }
 
 
@@ -74,8 +88,8 @@ class FaciesBands:
     --------
     >>> from paleomap.scheme import builtin_scheme
     >>> b = FaciesBands.default(builtin_scheme("carbonate_ramp"))
-    >>> b.boundary_level(b.scheme.tracked_boundary)
-    -5.0
+    >>> b.boundary_level(b.scheme.tracked_boundary), b.boundary_level(3)
+    (0.0, -10.0)
     """
 
     scheme: Scheme

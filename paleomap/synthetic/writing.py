@@ -131,6 +131,8 @@ def project_toml(basin: SyntheticBasin) -> str:
     sch = basin.scheme
     if sch.family != "custom":
         lines.append(f"builtin = {_toml_value(sch.name)}")
+        if sch.kind == "lithology":
+            lines.append(f"track = {_toml_value(list(sch.track))}")
     else:
         lines.append("belts = [")
         for b in sch.belts:
