@@ -461,6 +461,7 @@ _CATALOGUED = (
     "io/sources.py",
     "io/sheets.py",
     "io/assemble.py",
+    "io/origins.py",
     "io/las.py",
     "io/ags.py",
     "io/atomic.py",

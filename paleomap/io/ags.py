@@ -34,7 +34,7 @@ from pathlib import Path
 import pandas as pd
 
 from ..errors import ProblemLog
-from .assemble import Origins, Where
+from .origins import Origins, Where
 from .sources import InputSources, code_text, length_factor
 
 __all__ = ["read_ags", "read_ags_groups"]

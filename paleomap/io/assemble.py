@@ -6,114 +6,35 @@ in log depth to depths below the core top. The result is the three tables the CS
 has always produced (text or number cells and a ``line`` per row), so one validation
 (:func:`paleomap.cores.build_cores`) serves every source.
 
-Validation reports a problem at a table's name, line and column. For a table that is not
-a plain CSV file that place means little, so :class:`Origins` remembers where each row
-came from (a spreadsheet's sheet and row, a LAS file's line and section, an AGS4 group's
-row) and :meth:`Origins.relocate` puts each problem back where the user can find it.
+Problems of tables that are not plain CSV files are put back in place by
+:class:`paleomap.io.origins.Origins`.
 
 Examples
 --------
->>> from paleomap.errors import ProblemLog
->>> origins = Origins()
->>> origins.add_sheet("wells.xlsx, sheet 'W'", "wells.xlsx", "W", {"core_id": "UWI"})
->>> log = ProblemLog()
->>> log.error("wells.xlsx, sheet 'W'", 4, "core_id", "", "is empty")
->>> origins.relocate(log)
->>> str(log.errors[0])
-"wells.xlsx, sheet 'W', row 4, column 'UWI': is empty (got '')"
+>>> Tables().files
+{}
 """
 
 from __future__ import annotations
 
 import logging
 import math
-from dataclasses import dataclass, field, replace
+from dataclasses import dataclass, field
 from pathlib import Path
 
 import pandas as pd
 
 from ..cores import parse_number
-from ..errors import Problem, ProblemLog
-from .sheets import SHEET_SUFFIXES, read_sheet_table, sheet_place
+from ..errors import ProblemLog
+from .origins import Origins
+from .sheets import SHEET_SUFFIXES, read_sheet_table
 from .sources import TABLE_COLUMNS, InputSources
 
-__all__ = ["Origins", "Tables", "Where", "read_tables"]
+__all__ = ["Tables", "read_tables"]
 
 logger = logging.getLogger(__name__)
 
 _CSV_SUFFIXES = {".csv", ".txt"}
-
-
-@dataclass(frozen=True)
-class Where:
-    """Where one row of an assembled table came from.
-
-    Parameters
-    ----------
-    file : str
-        The file as named in messages.
-    line : int or None
-        Its text line, where it has one.
-    place : str or None
-        Where in the file besides the line (``"~ASCII section"``, ``"group GEOL, row 3"``).
-    columns : dict
-        paleomap's column name to the name the file uses (a curve mnemonic, an AGS4
-        heading), or to the :class:`Where` of a value kept elsewhere in the file (a LAS
-        header mnemonic), for this row.
-    """
-
-    file: str
-    line: int | None = None
-    place: str | None = None
-    columns: dict = field(default_factory=dict)
-
-
-class Origins:
-    """Where the rows of assembled tables came from, to report problems in place."""
-
-    def __init__(self) -> None:
-        self._columns: dict[str, dict] = {}
-        self._sheets: dict[str, tuple[str, str]] = {}
-        self._rows: dict[str, dict[int, Where]] = {}
-
-    def add_columns(self, table: str, columns: dict) -> None:
-        """A CSV table whose columns the user renamed."""
-        if columns:
-            self._columns[table] = dict(columns)
-
-    def add_sheet(self, table: str, file: str, sheet: str, columns: dict) -> None:
-        """A table read from a sheet: its lines are the sheet's rows."""
-        self._sheets[table] = (file, sheet)
-        self._columns[table] = dict(columns)
-
-    def add_row(self, table: str, line: int, where: Where) -> None:
-        """One row of a table made from a LAS or AGS4 file, under a line number of its own."""
-        self._rows.setdefault(table, {})[line] = where
-
-    def relocate(self, log: ProblemLog) -> None:
-        """Rewrite the log's problems to name the place in the user's file."""
-        log.errors[:] = [self.relocated(p) for p in log.errors]
-        log.warnings[:] = [self.relocated(p) for p in log.warnings]
-
-    def relocated(self, p: Problem) -> Problem:
-        """One problem at its place in the user's file (unchanged when not assembled)."""
-        table = p.file
-        if table in self._rows:
-            where = self._rows[table].get(p.line)
-            if where is None:
-                return p
-            target = where.columns.get(p.column, p.column)
-            if isinstance(target, Where):
-                # A header value: its own line and place (a LAS mnemonic).
-                return replace(
-                    p, file=target.file, line=target.line, place=target.place, column=None
-                )
-            return replace(p, file=where.file, line=where.line, place=where.place, column=target)
-        column = self._columns.get(table, {}).get(p.column, p.column)
-        if table in self._sheets:
-            file, sheet = self._sheets[table]
-            return replace(p, file=file, line=None, place=sheet_place(sheet, p.line), column=column)
-        return replace(p, column=column)
 
 
 @dataclass
@@ -216,6 +137,7 @@ def read_tables(cfg, root: Path, project_file: str, log: ProblemLog, *, source, 
         out.picks = out.picks[keep].reset_index(drop=True)
     if wells is not None and cfg.cores is not None and out.cores is not None:
         out.cores = _datum_from_wells(out.cores, wells)
+        _wells_not_in_cores(out, wells, names["cores"], log)
     out.files = {k: v for k, v in names.items() if v is not None}
     if sources.depth_reference == "log" and out.cores is not None:
         _from_log_depth(out, log)
@@ -259,6 +181,32 @@ def _datum_from_wells(cores: pd.DataFrame, wells: pd.DataFrame) -> pd.DataFrame:
             for cid, v in zip(cores["core_id"], cores[column], strict=True)
         ]
     return cores
+
+
+def _wells_not_in_cores(out: Tables, wells: pd.DataFrame, cores_name: str, log) -> None:
+    """Report once, at its WELL mnemonic, each LAS well the cores table lacks.
+
+    Its intervals are dropped: the validation would name each of them, at lines of no file.
+    """
+    known = {str(c).strip() for c in out.cores["core_id"]}
+    missing = {}
+    for cid, line in zip(wells["core_id"], wells["line"], strict=True):
+        if cid not in known:
+            missing[cid] = out.origins.where(wells.attrs["name"], int(line))
+    for cid, where in missing.items():
+        anchor = where.columns.get("core_id", where) if where is not None else None
+        log.error(
+            anchor.file if anchor else wells.attrs["name"],
+            anchor.line if anchor else None,
+            None,
+            cid,
+            f"is not in {cores_name}",
+            "add the well to the cores table (it gives the positions) or correct its id",
+            place=anchor.place if anchor else None,
+        )
+    if missing and out.intervals is not None:
+        keep = [str(c).strip() not in missing for c in out.intervals["core_id"]]
+        out.intervals = out.intervals[keep].reset_index(drop=True)
 
 
 def _number(value) -> float | None:

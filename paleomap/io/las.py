@@ -47,7 +47,7 @@ import numpy as np
 import pandas as pd
 
 from ..errors import ProblemLog
-from .assemble import Origins, Where
+from .origins import Origins, Where
 from .sources import InputSources, code_text, length_factor
 
 __all__ = ["LAS_SUFFIXES", "intervals_from_samples", "parse_coordinate", "read_logs"]
