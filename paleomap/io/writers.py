@@ -36,8 +36,10 @@ PAIR_TIME_COLUMNS = ("slider_start", "slider_end")
 def raster_names(slice_name: str) -> dict[str, str]:
     """File names (inside ``rasters/``) of one slice's belt and distal-probability rasters.
 
-    >>> raster_names("KS3")["belt"]
-    'belt_KS3.tif'
+    >>> raster_names("ks3")["belt"]
+    'belt_ks3.tif'
+    >>> raster_names("KS3")["belt"]  # a capital or any changed character adds a hash
+    'belt_KS3-3c04ed96.tif'
     """
     s = safe_name(slice_name)
     return {"belt": f"belt_{s}.tif", "distal": f"distal_probability_{s}.tif"}
@@ -46,8 +48,8 @@ def raster_names(slice_name: str) -> dict[str, str]:
 def probability_name(slice_name: str, belt_id: str) -> str:
     """File name (inside ``rasters/``) of one belt's probability raster at one slice.
 
-    >>> probability_name("KS3", "fine_sand")
-    'probability_fine_sand_KS3.tif'
+    >>> probability_name("ks3", "fine_sand")
+    'probability_fine_sand_ks3.tif'
     """
     return f"probability_{safe_name(belt_id)}_{safe_name(slice_name)}.tif"
 
