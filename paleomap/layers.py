@@ -17,6 +17,7 @@ import numpy as np
 import pandas as pd
 import shapely
 
+from .io.filenames import safe_name
 from .results import GEOMETRY_TYPES, LAYER_COLUMNS, LAYER_ORDER
 
 if TYPE_CHECKING:
@@ -226,7 +227,9 @@ def build_layers(result: BuildResult) -> dict[str, pd.DataFrame]:
                     geometry=_multi(bd["band"], shapely.MultiPolygon),
                 )
             )
-        quality_rows.append(dict(slice=m.slice.name, age=m.slice.age, **m.quality))
+        # The stem of the slice's rasters and figure: a slice name may not be a file name.
+        stem = safe_name(m.slice.name)
+        quality_rows.append(dict(slice=m.slice.name, age=m.slice.age, file_stem=stem, **m.quality))
     # A slice with no boundary in the mapped area keeps its row (with an empty line),
     # so the GIS and the report show that it was looked for and not found.
     facies_belts = _gdf(belt_rows, list(LAYER_COLUMNS["facies_belts"]), crs)

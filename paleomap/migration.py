@@ -66,10 +66,12 @@ __all__ = [
     "default_transects",
     "joint_shift_statistics",
     "lsq_rate",
+    "one_directional",
     "regional_dip_azimuth",
     "shift_statistics",
     "strike_extent",
     "transect_position",
+    "trend_rate",
 ]
 
 log = logging.getLogger(__name__)
@@ -423,6 +425,50 @@ def lsq_rate(ages_kyr, positions_m) -> float:
     if ok.sum() < 2 or np.ptp(a[ok]) == 0:
         return float("nan")
     return float(np.polyfit(a[ok], p[ok], 1)[0])
+
+
+def one_directional(ages_kyr, positions_m) -> bool:
+    """Whether the positions, in age order, never turn back (each step the same way or
+    not at all). At least two finite positions are needed.
+
+    >>> one_directional([30, 20, 10], [5.0, 3.0, 3.0]), one_directional([30, 20, 10], [5, 3, 4])
+    (True, False)
+    """
+    a = np.asarray(ages_kyr, dtype=float)
+    p = np.asarray(positions_m, dtype=float)
+    ok = np.isfinite(a) & np.isfinite(p)
+    if ok.sum() < 2:
+        return False
+    d = np.diff(p[ok][np.argsort(a[ok], kind="stable")])
+    return bool((d >= 0).all() or (d <= 0).all())
+
+
+def trend_rate(ages_kyr, positions_m) -> tuple[float, str]:
+    """One rate (m/kyr, positive landward) for a whole series of positions, and how it
+    was found.
+
+    A least-squares line through a series that goes back and forth describes none of its
+    steps, so the least-squares rate (:func:`lsq_rate`) is given only where the series
+    is one-directional (:func:`one_directional`); otherwise the net rate, from the
+    oldest to the youngest position over the time between them. The method is
+    ``"least-squares"``, ``"net"``, or ``""`` when there is no rate.
+
+    >>> rate, how = trend_rate([30, 20, 10], [5000.0, 3000.0, 1000.0])
+    >>> round(rate, 6), how
+    (200.0, 'least-squares')
+    >>> trend_rate([30, 20, 10], [5000.0, 1000.0, 4000.0])
+    (50.0, 'net')
+    """
+    a = np.asarray(ages_kyr, dtype=float)
+    p = np.asarray(positions_m, dtype=float)
+    ok = np.isfinite(a) & np.isfinite(p)
+    if ok.sum() < 2 or np.ptp(a[ok]) == 0:
+        return float("nan"), ""
+    if one_directional(a, p):
+        return lsq_rate(a, p), "least-squares"
+    a, p = a[ok], p[ok]
+    old, young = np.argmax(a), np.argmin(a)
+    return float((p[old] - p[young]) / (a[old] - a[young])), "net"
 
 
 def classify_sense(rates, tolerance: float, low=None, high=None) -> list[str]:

@@ -781,6 +781,7 @@ def write_build(
     overwrite: bool = False,
     figures: bool = True,
     report: bool = True,
+    figure_settings=None,
 ) -> Path:
     """Write a computed build into ``out`` atomically.
 
@@ -789,7 +790,9 @@ def write_build(
     table), then the figures (:func:`paleomap.figures.all.draw_all`), then the report
     (:func:`paleomap.report.write_report`). Each only reads ``result``. The folder is
     written beside ``out`` and moved into place only when complete; an existing build
-    is replaced only with ``overwrite``.
+    is replaced only with ``overwrite``. ``figure_settings``
+    (:class:`paleomap.figures.all.FigureSettings`) asks for vector figures and sets the
+    core panel's datum and spacing.
     """
     from .io.atomic import atomic_build_dir
     from .io.writers import write_deliverables
@@ -800,7 +803,7 @@ def write_build(
         if figures:
             from .figures.all import draw_all
 
-            draw_all(result, tmp / "figures")
+            draw_all(result, tmp / "figures", settings=figure_settings)
         if report:
             from .report import write_report
 
@@ -815,6 +818,7 @@ def build(
     overwrite: bool = False,
     figures: bool = True,
     report: bool = True,
+    figure_settings=None,
 ) -> BuildResult:
     """Compute every map of ``project`` and write the build folder ``out``.
 
@@ -834,6 +838,13 @@ def build(
         check_build_target(out, overwrite=overwrite, inputs=inputs)
         result = compute(project)
         t = time.perf_counter()
-        write_build(result, out, overwrite=overwrite, figures=figures, report=report)
+        write_build(
+            result,
+            out,
+            overwrite=overwrite,
+            figures=figures,
+            report=report,
+            figure_settings=figure_settings,
+        )
     result.timings["writing"] = time.perf_counter() - t
     return result

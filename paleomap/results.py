@@ -174,7 +174,8 @@ LAYER_COLUMNS: dict[str, tuple[str, ...]] = {
 }
 """The fixed leading columns of each table (geometry apart). ``cores`` and
 ``core_slices`` may gain the core reading's columns, ``slice_pairs`` gains
-:data:`PAIR_CORE_COLUMNS`, ``slice_quality`` carries the engine's own scores; an
+:data:`PAIR_CORE_COLUMNS`, ``slice_quality`` carries ``slice``, ``age``, ``file_stem`` (the
+stem of the slice's rasters and figure) and the engine's own scores; an
 empty ``core_contacts`` keeps the columns listed here."""
 
 

@@ -58,7 +58,7 @@ __all__ = [
     "suggest_names",
 ]
 
-_HEX = re.compile(r"^#[0-9a-fA-F]{6}$")
+_HEX = re.compile(r"^#[0-9a-fA-F]{6}\Z")  # \Z: "$" would let a final newline through
 _SEPARATORS = re.compile(r"[\s_\-]+")
 
 

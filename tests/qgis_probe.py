@@ -104,7 +104,8 @@ def main(argv):
     samples.setSubsetString(f"\"slice\" = '{slice_name}'")
     cores = [(f["core_id"], f["belt"], f.geometry().asPoint()) for f in samples.getFeatures()]
     belts = vectors["facies_belts"]
-    raster = QgsRasterLayer(str(build / "rasters" / f"belt_{slice_name}.tif"), "belt")
+    belt_file = argv[6] if len(argv) > 6 else f"belt_{slice_name}.tif"
+    raster = QgsRasterLayer(str(build / "rasters" / belt_file), "belt")
     rendered = {}
     for key, layer, temporal in (("facies_belts", belts, True), ("belt_raster", raster, False)):
         settings = QgsMapSettings()

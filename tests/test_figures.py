@@ -8,7 +8,7 @@ from pathlib import Path
 
 import numpy as np
 import pytest
-from conftest import REMOVE, write_project
+from conftest import PICKS, REMOVE, write_project
 
 from paleomap import load_project
 from paleomap.chart import MIN_CORES, wheeler_section
@@ -406,7 +406,7 @@ def test_draw_all_writes_every_figure(request, name, tmp_path):
         assert f"slice_{safe_name(m.slice.name)}.png" in names
         assert f"slice_{safe_name(m.slice.name)}.pdf" in names
     assert "shoreline_migration.png" in names and "shoreline_positions.png" in names
-    tr = chart_transect(result.transects).transect
+    tr = safe_name(chart_transect(result.transects).transect)
     assert f"chronostratigraphic_{tr}.png" in names and f"core_panel_{tr}.png" in names
     for p in paths:
         head = p.read_bytes()[:8]
@@ -435,3 +435,89 @@ def test_demo_figures(demo, tmp_path):
     surfaces = sorted(sf.age for sf in demo.project.surfaces)
     assert s.ages[0] == surfaces[0] and s.ages[-1] == surfaces[-1]
     assert _chart_meets_the_maps(demo) == len(demo.slice_maps)
+
+
+# ------------------------------------------------------------------- one meaning per colour
+
+
+def test_migration_map_gives_each_colour_one_meaning(two_belt):
+    from matplotlib.collections import LineCollection
+    from matplotlib.patches import FancyArrowPatch
+
+    ax = migration_map(two_belt)
+    sense = {tuple(np.round(np.array(hex_to_rgb(c)) / 255, 3)) for c in SENSE_COLORS.values()}
+    arrows = [p for p in ax.patches if isinstance(p, FancyArrowPatch)]
+    assert arrows
+    # arrows: coloured by sense only
+    assert all(tuple(np.round(a.get_edgecolor()[:3], 3)) in sense for a in arrows)
+    # shorelines: greys (the age), never a sense colour
+    lines = [c for c in ax.collections if isinstance(c, LineCollection)]
+    greys = [c for c in lines if np.allclose(c.get_colors()[:, 0], c.get_colors()[:, 2])]
+    assert len(greys) >= len(two_belt.slice_maps)
+    # a key for each: the legend names the senses, the colour bar the ages
+    labels = [t.get_text() for t in ax.get_legend().get_texts()]
+    assert any(t.startswith("transgression") for t in labels)
+    assert any(t.startswith("regression") for t in labels)
+    cbar = ax.child_axes
+    assert cbar and "age" in cbar[0].get_ylabel().lower()
+
+
+# ------------------------------------------------------------------- characters
+
+
+def test_names_the_font_cannot_draw_do_not_show_as_boxes(tmp_path):
+    from paleomap.figures.labels import clean_text
+
+    assert clean_text("\u6d77\u5cb8 $5 $x$") == "?? \\$5 \\$x\\$"
+    assert clean_text("Ørsted–Ålesund") == "Ørsted–Ålesund"
+    # drawn: no "missing glyph" warning (warnings are errors here) and no mathtext
+    path = write_project(
+        tmp_path / "p",
+        keys={"slices.at": ["s_old"], "mapping.deterministic": True},
+        picks=PICKS.replace("s_old", "\u6d77\u5cb8 $old$"),
+        config={
+            "surfaces": [
+                {"name": "s_young", "age": 100.0},
+                {"name": "s_mid", "age": 200.0},
+                {"name": "\u6d77\u5cb8 $old$", "age": 300.0},
+            ]
+        },
+    )
+    path.write_text(path.read_text().replace('"s_old"', '"\u6d77\u5cb8 $old$"'))
+    result = _compute(path)
+    ax = slice_map(result, 0)
+    ax.figure.canvas.draw()
+    assert "?? \\$old\\$" in ax.get_title("left")
+
+
+# ------------------------------------------------------------------- vector figures
+
+
+def test_vector_figures_on_request(one_slice, tmp_path):
+    settings = figures_all.FigureSettings(vector=("svg", "pdf"))
+    paths = figures_all.draw_all(one_slice, tmp_path / "figures", settings=settings)
+    by_suffix = {s: [p for p in paths if p.suffix == s] for s in (".png", ".svg", ".pdf")}
+    assert len(by_suffix[".png"]) == len(by_suffix[".svg"]) == len(by_suffix[".pdf"]) > 2
+    assert all(b"<svg" in p.read_bytes()[:2000] for p in by_suffix[".svg"])
+    assert all(p.read_bytes()[:5] == b"%PDF-" for p in by_suffix[".pdf"])
+    with pytest.raises(ValueError, match="not one of svg, pdf"):
+        figures_all.FigureSettings(vector=("eps",))
+
+
+def test_cli_asks_for_vector_figures_and_a_flattened_distance_panel(tmp_path):
+    from click.testing import CliRunner
+
+    from paleomap.cli import main
+
+    path = write_project(tmp_path / "p", keys={"mapping.deterministic": True})
+    out = tmp_path / "build"
+    args = ["build", str(path), "--out", str(out), "--vector", "svg"]
+    bad = CliRunner().invoke(main, [*args, "--panel-datum", "nope"])
+    assert bad.exit_code == 2 and "s_mid" in bad.output and not out.exists()
+    ok = CliRunner().invoke(main, [*args, "--panel-datum", "s_mid", "--panel-spacing", "distance"])
+    assert ok.exit_code == 0, ok.output
+    svgs = sorted(p.name for p in (out / "figures").glob("*.svg"))
+    pngs = sorted(p.name for p in (out / "figures").glob("*.png"))
+    assert [s[:-4] for s in svgs] == [p[:-4] for p in pngs]
+    panel = next((out / "figures").glob("core_panel_*.svg")).read_text(encoding="utf-8")
+    assert "flattened" in panel and "by distance" in panel

@@ -404,7 +404,6 @@ _SPECIAL = {
 _ODD_BUT_VALID = {
     "quote-at-end": {"picks": PICKS + '"'},
     "huge-depth": {"intervals": INTERVALS.replace("C1,30,40", "C1,30,1e300")},
-    "toml-huge-cell": {"keys": {"grid.cell_size": 1e308}},
     "toml-huge-age": {"keys": {"surfaces[3].age": 1e308}},
     "toml-huge-int-age": {"keys": {"surfaces[3].age": 10**18}},
     "crlf-and-bom": {"cores": b"\xef\xbb\xbf" + CORES.replace("\n", "\r\n").encode()},
@@ -463,9 +462,11 @@ _CATALOGUED = (
     "io/sources.py",
     "io/sheets.py",
     "io/assemble.py",
+    "io/origins.py",
     "io/las.py",
     "io/ags.py",
     "io/atomic.py",
+    "io/inputfiles.py",
     "cli/demo.py",
 )
 # Call name -> position of the message argument.
@@ -477,6 +478,7 @@ _MESSAGE_ARG = {
     "OutputExistsError": 0,
     "BuildWriteError": 0,
     "BuildBusyError": 0,
+    "FileProblem": 0,
 }
 
 

@@ -24,6 +24,7 @@ import pytest
 
 from paleomap.io.styles import DISTAL_STOPS, PROBABILITY_STOPS
 from paleomap.io.timeslider import slider_times
+from paleomap.io.writers import raster_names
 
 SYSTEM_PYTHON = Path("/usr/bin/python3")
 PROBE = Path(__file__).parent / "qgis_probe.py"
@@ -92,6 +93,7 @@ def qgis_report(demo_build, geographic_build):
             start.strftime("%Y-%m-%dT%H:%M:%SZ"),
             end.strftime("%Y-%m-%dT%H:%M:%SZ"),
             str(geographic_build[2]),
+            raster_names(SLICE)["belt"],  # slice names become file names through a slug
         ],
         capture_output=True,
         text=True,

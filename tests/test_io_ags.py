@@ -16,7 +16,7 @@ from paleomap.agemodel import sample_slices
 from paleomap.cli import main
 from paleomap.errors import InputError, ProblemLog
 from paleomap.io.ags import read_ags, read_ags_groups
-from paleomap.io.assemble import Origins
+from paleomap.io.origins import Origins
 from paleomap.io.readers import load_project
 from paleomap.io.sources import InputSources
 

@@ -363,8 +363,8 @@ def test_a_hand_written_las_2_file(tmp_path):
     (tmp_path / "logs").mkdir()
     (tmp_path / "logs" / "hand.las").write_text(_HAND_WRITTEN)
     from paleomap.errors import ProblemLog
-    from paleomap.io.assemble import Origins
     from paleomap.io.las import read_logs
+    from paleomap.io.origins import Origins
     from paleomap.io.sources import InputSources
 
     sources = InputSources(
@@ -426,8 +426,8 @@ FACIES.      : FACIES CODE
 
 def _read_one_file(tmp_path, text: str, **settings):
     from paleomap.errors import ProblemLog
-    from paleomap.io.assemble import Origins
     from paleomap.io.las import read_logs
+    from paleomap.io.origins import Origins
     from paleomap.io.sources import InputSources
 
     (tmp_path / "logs").mkdir(exist_ok=True)
@@ -507,3 +507,22 @@ def test_intervals_from_samples_honour_every_sample(steps, codes):
     for d, c in zip(depths, codes, strict=True):
         inside = [code for top, base, code, _ in got if top < d < base]
         assert inside == ([] if c is None else [c])
+
+
+def test_a_well_missing_from_the_cores_table_is_named_once_at_its_header(tmp_path):
+    lonlat = _lonlat()
+    cores = "core_id,x,y\n" + "".join(
+        f"{cid},{lon},{lat}\n" for cid, (lon, lat) in lonlat.items() if cid != "C2"
+    )
+    picks = "\n".join(r for r in _log_picks().splitlines() if not r.startswith("C2")) + "\n"
+    path = _las_project(tmp_path, keys={"inputs.cores": "cores.csv"}, picks=picks)
+    (tmp_path / "cores.csv").write_text(cores)
+    result = _check(path)
+    assert result.exit_code == 2
+    text = (tmp_path / "logs" / "C2.las").read_text().splitlines()
+    well = next(i for i, t in enumerate(text, 1) if t.startswith("WELL"))
+    assert result.output == (
+        f"Error: logs/C2.las, line {well}, ~Well section, mnemonic 'WELL': is not in cores.csv "
+        "(got 'C2'). Add the well to the cores table (it gives the positions) or correct its "
+        "id\n"
+    )

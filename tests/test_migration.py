@@ -10,9 +10,11 @@ from paleomap.migration import (
     classify_sense,
     default_transects,
     lsq_rate,
+    one_directional,
     regional_dip_azimuth,
     shift_statistics,
     transect_position,
+    trend_rate,
 )
 
 
@@ -108,6 +110,23 @@ def test_lsq_rate_is_positive_for_a_transgression():
     ages = np.array([300.0, 200.0, 100.0])
     positions = np.array([9000.0, 6000.0, 3000.0])  # moving landward as age decreases
     assert lsq_rate(ages, positions) == pytest.approx(30.0)
+
+
+def test_trend_rate_is_least_squares_only_for_a_one_way_series():
+    ages = np.array([300.0, 200.0, 100.0, 50.0])
+    one_way = np.array([9000.0, 6000.0, 6000.0, 1000.0])  # landward or still throughout
+    assert one_directional(ages, one_way)
+    assert trend_rate(ages, one_way) == (pytest.approx(lsq_rate(ages, one_way)), "least-squares")
+    # back and forth: a line through it means nothing; the net rate oldest to youngest
+    swing = np.array([9000.0, 2000.0, 8000.0, 7000.0])
+    assert not one_directional(ages, swing)
+    rate, method = trend_rate(ages, swing)
+    assert method == "net" and rate == pytest.approx((9000.0 - 7000.0) / (300.0 - 50.0))
+    assert trend_rate(ages[:1], swing[:1])[1] == ""
+    assert trend_rate(ages, [np.nan, 5.0, np.nan, 4.0]) == (
+        pytest.approx(1.0 / 150.0),
+        "least-squares",
+    )
 
 
 def test_sense_tolerance():

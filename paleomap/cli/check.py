@@ -144,7 +144,12 @@ def coverage_lines(project: Project, samples: pd.DataFrame) -> list[str]:
 
 @click.command("check")
 @click.argument("project", type=click.Path(path_type=Path))
-def command(project: Path) -> None:
+@click.option(
+    "--allow-outside-inputs",
+    is_flag=True,
+    help="Allow the project file to name files outside its own folder.",
+)
+def command(project: Path, allow_outside_inputs: bool) -> None:
     """Validate PROJECT (a project TOML file) and summarise it.
 
     Every problem in every input file is listed with its file, line, column and value;
@@ -157,7 +162,7 @@ def command(project: Path) -> None:
     """
     with warnings.catch_warnings(record=True) as caught:
         warnings.simplefilter("always", PaleomapWarning)
-        loaded = load_project(project)
+        loaded = load_project(project, allow_outside_inputs=allow_outside_inputs)
     # The summary lists paleomap's warnings; any other warning is passed on.
     for w in caught:
         if not issubclass(w.category, PaleomapWarning):

@@ -6,7 +6,8 @@ from pathlib import Path
 
 import click
 
-from .build import run_build
+from ..figures.all import FigureSettings
+from .build import figure_options, run_build
 
 __all__ = ["command", "demo_project_path"]
 
@@ -40,8 +41,16 @@ def demo_project_path() -> Path:
     is_flag=True,
     help="Replace an earlier build in OUT (as for build: only a folder paleomap wrote).",
 )
+@figure_options
 @click.pass_context
-def command(ctx: click.Context, out: Path, overwrite: bool) -> None:
+def command(
+    ctx: click.Context,
+    out: Path,
+    overwrite: bool,
+    vector: tuple[str, ...],
+    panel_datum: str | None,
+    panel_spacing: str,
+) -> None:
     """Build the bundled demo region (an invented shelf) into OUT.
 
     Follows the rules of ``build``: an existing OUT is refused unless --overwrite, and
@@ -51,4 +60,12 @@ def command(ctx: click.Context, out: Path, overwrite: bool) -> None:
     Example:
       paleomap demo --out demo_build
     """
-    run_build(demo_project_path(), out, overwrite=overwrite, quiet=ctx.obj.get("quiet", False))
+    run_build(
+        demo_project_path(),
+        out,
+        overwrite=overwrite,
+        quiet=ctx.obj.get("quiet", False),
+        figure_settings=FigureSettings(
+            vector=tuple(vector), panel_datum=panel_datum, panel_spacing=panel_spacing
+        ),
+    )

@@ -36,9 +36,62 @@ from typing import TYPE_CHECKING
 if TYPE_CHECKING:
     from ..results import BuildResult
 
-__all__ = ["FigureSpec", "draw_all", "figure_specs"]
+__all__ = ["VECTOR_FORMATS", "FigureSettings", "FigureSpec", "draw_all", "figure_specs"]
 
 log = logging.getLogger(__name__)
+
+
+VECTOR_FORMATS = ("svg", "pdf")
+"""Vector formats a build can write beside every PNG figure."""
+
+
+@dataclass(frozen=True)
+class FigureSettings:
+    """How a build draws its figures (the command line's figure options).
+
+    Parameters
+    ----------
+    vector : tuple of str
+        Vector formats (:data:`VECTOR_FORMATS`) written beside every PNG; empty for
+        PNG only.
+    panel_datum : str or None
+        What the core panel hangs its cores on: a surface name (flattened on it),
+        ``"elevation"`` or ``"depth"``; None: elevation when every core has one, else
+        depth (:func:`paleomap.figures.corepanel.core_panel`).
+    panel_spacing : str
+        ``"even"`` or ``"distance"`` (along the transect).
+
+    Examples
+    --------
+    >>> FigureSettings(vector=("svg",)).formats
+    ('png', 'svg')
+    >>> FigureSettings(vector=("eps",))
+    Traceback (most recent call last):
+    ...
+    ValueError: vector figure format 'eps' is not one of svg, pdf
+    """
+
+    vector: tuple[str, ...] = ()
+    panel_datum: str | None = None
+    panel_spacing: str = "even"
+
+    def __post_init__(self):
+        from .corepanel import PANEL_SPACINGS
+
+        for f in self.vector:
+            if f not in VECTOR_FORMATS:
+                raise ValueError(
+                    f"vector figure format {f!r} is not one of {', '.join(VECTOR_FORMATS)}"
+                )
+        if self.panel_spacing not in PANEL_SPACINGS:
+            raise ValueError(
+                f"panel spacing {self.panel_spacing!r} is not one of {', '.join(PANEL_SPACINGS)}"
+            )
+
+    @property
+    def formats(self) -> tuple[str, ...]:
+        """PNG (always: the report embeds it) and the vector formats asked for."""
+        return ("png", *dict.fromkeys(f for f in self.vector if f != "png"))
 
 
 @dataclass(frozen=True)
@@ -61,7 +114,7 @@ def _fig(obj):
     return obj.flat[0].figure if hasattr(obj, "flat") else obj[0].figure
 
 
-def figure_specs(result: BuildResult) -> list[FigureSpec]:
+def figure_specs(result: BuildResult, settings: FigureSettings | None = None) -> list[FigureSpec]:
     """The figures of a build, in report order.
 
     Examples
@@ -77,6 +130,7 @@ def figure_specs(result: BuildResult) -> list[FigureSpec]:
     from .slicemap import age_label, slice_map
     from .wheeler import wheeler_chart
 
+    settings = settings or FigureSettings()
     unit = result.project.age_unit
     specs = []
     for i, m in enumerate(result.slice_maps):
@@ -94,8 +148,9 @@ def figure_specs(result: BuildResult) -> list[FigureSpec]:
         FigureSpec(
             "shoreline_migration",
             "Shoreline migration",
-            "Every slice's shoreline coloured by age; arrows from the older to the younger "
-            "position on the transects, coloured by rate.",
+            "Every slice's shoreline in greys by age (older darker, scale at right); arrows "
+            "from the older to the younger position on the transects, coloured by sense "
+            "(transgression blue, regression orange, stillstand grey).",
             lambda: _fig(migration_map(result)),
             "migration",
         )
@@ -119,8 +174,11 @@ def figure_specs(result: BuildResult) -> list[FigureSpec]:
                 f"core_panel_{safe_name(tr)}",
                 f"Core correlation panel along {tr}",
                 "Cores near the transect as facies columns (widest = most proximal belt), "
-                "picked surfaces joined, possible breaks marked.",
-                lambda: _fig(core_panel(result)),
+                "hung on elevation where every core has one (else on depth, or flattened "
+                "on a chosen surface), picked surfaces joined, possible breaks marked.",
+                lambda: _fig(
+                    core_panel(result, datum=settings.panel_datum, spacing=settings.panel_spacing)
+                ),
                 "sections",
             )
         )
@@ -129,7 +187,8 @@ def figure_specs(result: BuildResult) -> list[FigureSpec]:
                 "shoreline_positions",
                 "Shoreline position against age",
                 "Position on each transect with its P10-P90 band; steps coloured by sense; "
-                "least-squares rate in each panel's title.",
+                "in each panel's title the least-squares rate where the shoreline moved one "
+                "way throughout, else the net rate.",
                 lambda: _fig(shoreline_positions(result)),
                 "migration",
             )
@@ -138,7 +197,9 @@ def figure_specs(result: BuildResult) -> list[FigureSpec]:
             FigureSpec(
                 f"shoreline_position_{safe_name(tr)}",
                 f"Shoreline position and rates on {tr}",
-                "Each step labelled with its rate in m/kyr and its P10 to P90 range.",
+                "Each step labelled with its rate in m/kyr and its P10 to P90 range; the "
+                "whole series' rate in the title (least-squares only where one-directional, "
+                "else net).",
                 lambda: _fig(position_panel(result, tr)),
                 "migration",
             )
@@ -149,7 +210,11 @@ def figure_specs(result: BuildResult) -> list[FigureSpec]:
 
 
 def draw_all(
-    result: BuildResult, folder: str | Path, *, formats: Sequence[str] = ("png",)
+    result: BuildResult,
+    folder: str | Path,
+    *,
+    formats: Sequence[str] | None = None,
+    settings: FigureSettings | None = None,
 ) -> list[Path]:
     """Draw every figure of ``result`` into ``folder``.
 
@@ -159,9 +224,11 @@ def draw_all(
         A computed build.
     folder : str or Path
         Created if missing.
-    formats : sequence of str
+    formats : sequence of str, optional
         File formats, any of ``png``, ``pdf``, ``svg``; PNG is always written (the
-        report embeds it).
+        report embeds it). Default: those of ``settings``.
+    settings : FigureSettings, optional
+        Vector formats and the core panel's datum and spacing.
 
     Returns
     -------
@@ -174,10 +241,12 @@ def draw_all(
     """
     from .canvas import save_figure
 
+    settings = settings or FigureSettings()
+    formats = settings.formats if formats is None else formats
     fmts = ["png", *[f for f in formats if f != "png"]]
     folder = Path(folder)
     out: list[Path] = []
-    specs = figure_specs(result)
+    specs = figure_specs(result, settings)
     for k, spec in enumerate(specs):
         t = time.perf_counter()
         fig = spec.draw()

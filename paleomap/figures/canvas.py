@@ -28,6 +28,8 @@ __all__ = [
     "axes_or_new",
     "figure_style",
     "new_figure",
+    "plain_text",
+    "plain_texts",
     "rgba_at",
     "save_figure",
 ]
@@ -52,7 +54,16 @@ _RC = {
     "axes.linewidth": 0.6,
     "svg.fonttype": "none",
     "pdf.fonttype": 42,
+    # Names come from the user: "$" in a label is a dollar sign, never mathtext
+    # (an unknown "\\cmd" between two "$" would stop the drawing).
+    "text.parse_math": False,
+    "text.usetex": False,
 }
+
+_LONGEST_TEXT_LINE = 200
+"""Characters of one line of figure text kept before an ellipsis: a guard against a
+runaway line (the figures shorten names themselves; an axis label that names a
+transect and its spacing runs to about 120 characters)."""
 
 
 def figure_style():
@@ -111,6 +122,48 @@ def axes_or_new(ax: Axes | None, width_in: float, height_in: float) -> Axes:
         return new_figure(width_in, height_in).add_subplot()
 
 
+def plain_text(text: str, limit: int = _LONGEST_TEXT_LINE) -> str:
+    """``text`` as a figure shows it: control characters dropped, long lines shortened.
+
+    Examples
+    --------
+    >>> plain_text("mfs\\x07 1")
+    'mfs 1'
+    >>> plain_text("S" * 200, limit=10)
+    'SSSSSSSSS…'
+    """
+    lines = []
+    for line in str(text).split("\n"):
+        line = "".join(c for c in line if c.isprintable())
+        lines.append(line if len(line) <= limit else line[: limit - 1] + "…")
+    return "\n".join(lines)
+
+
+def plain_texts(fig: Figure) -> None:
+    """Make every text of ``fig`` plain: no mathtext, no control characters, no runaway line.
+
+    Called by :func:`save_figure`, so a user's name never breaks a figure, whichever
+    drawing function placed it.
+
+    Examples
+    --------
+    >>> fig = new_figure(2, 2)
+    >>> t = fig.text(0.1, 0.5, r"$\\cmd$")
+    >>> plain_texts(fig)
+    >>> t.get_parse_math()
+    False
+    """
+    from matplotlib.text import Text
+
+    for t in fig.findobj(Text):
+        t.set_parse_math(False)
+        text = t.get_text()
+        if text:
+            clean = plain_text(text)
+            if clean != text:
+                t.set_text(clean)
+
+
 def save_figure(fig: Figure, stem: str | Path, formats: Sequence[str] = ("png",)) -> list[Path]:
     """Save ``fig`` as ``stem.<format>`` for each format and return the paths.
 
@@ -141,6 +194,7 @@ def save_figure(fig: Figure, stem: str | Path, formats: Sequence[str] = ("png",)
         raise ValueError(f"figure format {bad[0]!r} is not one of {', '.join(FIGURE_FORMATS)}")
     stem = Path(stem)
     stem.parent.mkdir(parents=True, exist_ok=True)
+    plain_texts(fig)
     out = []
     for fmt in formats:
         path = stem.with_name(f"{stem.name}.{fmt}")

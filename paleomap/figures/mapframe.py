@@ -2,10 +2,12 @@
 
 Map axes keep an equal aspect (a metre is as long east as north). Coordinates are
 labelled in kilometres of the working CRS, whose name is written beside them. The
-scale bar, north arrow and legend are placed in a column to the right of the map (in
-axes coordinates beyond 1), so they never hide data. The north arrow points to grid
-north of the working CRS (the top of the map); in a projected CRS this differs from
-true north only by the grid convergence.
+scale bar, north arrow and legend are placed in a column to the right of the map, so
+they never hide data. They are placed relative to the box the map axes was given
+(:func:`allotted_transform`), not to the map itself, which an equal aspect makes
+shorter or narrower: a wide, low map keeps the column's full height for its legend.
+The north arrow points to grid north of the working CRS (the top of the map); in a
+projected CRS this differs from true north only by the grid convergence.
 
 Examples
 --------
@@ -28,6 +30,7 @@ if TYPE_CHECKING:
 
 __all__ = [
     "MAP_RIGHT",
+    "allotted_transform",
     "coordinate_labels",
     "crs_label",
     "nice_length",
@@ -55,6 +58,24 @@ def nice_length(x: float) -> float:
         if x >= m * p:
             return m * p
     return p
+
+
+def allotted_transform(ax: Axes):
+    """Transform from fractions of the box ``ax`` was given (before an equal aspect
+    shrank it) to display coordinates: (0, 0) its lower left, (1, 1) its upper right.
+
+    Examples
+    --------
+    >>> from paleomap.figures.canvas import new_figure
+    >>> ax = new_figure(4, 2).add_axes((0.1, 0.1, 0.5, 0.8))
+    >>> set_map_extent(ax, (0, 0, 10, 10))
+    >>> allotted_transform(ax).transform((1.0, 1.0)).round(1).tolist()
+    [360.0, 270.0]
+    """
+    from matplotlib.transforms import BboxTransformTo, TransformedBbox
+
+    box = ax.get_position(original=True)
+    return BboxTransformTo(TransformedBbox(box, ax.figure.transFigure))
 
 
 def set_map_extent(ax: Axes, bounds, pad_fraction: float = 0.02) -> None:
@@ -118,7 +139,7 @@ def scale_bar(ax: Axes, *, anchor=(1.04, 0.0), fraction: float = 0.3) -> float:
         label,
         loc="lower left",
         bbox_to_anchor=anchor,
-        bbox_transform=ax.transAxes,
+        bbox_transform=allotted_transform(ax),
         frameon=False,
         pad=0.0,
         borderpad=0.0,
@@ -135,11 +156,12 @@ def scale_bar(ax: Axes, *, anchor=(1.04, 0.0), fraction: float = 0.3) -> float:
 def north_arrow(ax: Axes, *, at=(1.08, 0.10), height: float = 0.10) -> None:
     """An arrow pointing to grid north with an ``N`` above it, beside the map."""
     x, y = at
+    box = allotted_transform(ax)
     ax.annotate(
         "",
         xy=(x, y + height),
         xytext=(x, y),
-        xycoords="axes fraction",
+        xycoords=box,
         arrowprops=dict(arrowstyle="-|>,head_width=0.35,head_length=0.7", color=EDGE_COLOR, lw=1.2),
         annotation_clip=False,
     )
@@ -147,7 +169,7 @@ def north_arrow(ax: Axes, *, at=(1.08, 0.10), height: float = 0.10) -> None:
         x,
         y + height + 0.01,
         "N",
-        transform=ax.transAxes,
+        transform=box,
         ha="center",
         va="bottom",
         fontsize=9,
@@ -165,7 +187,7 @@ def side_legend(ax: Axes, handles, labels, *, title: str | None = None, anchor=(
         title=title,
         loc="upper left",
         bbox_to_anchor=anchor,
-        bbox_transform=ax.transAxes,
+        bbox_transform=allotted_transform(ax),
         borderaxespad=0.0,
         frameon=False,
         fontsize=7.5,

@@ -1,10 +1,13 @@
 """The shoreline migration map: every slice's shoreline and the shifts between them.
 
-Shorelines (the tracked boundary of each slice) are coloured by age on one map, older
-darker. Along each transect an arrow runs from the boundary's position at the older
-slice to its position at the younger one, coloured by the rate (m/kyr, positive
-landward) on a diverging scale: transgressions blue and drawn solid, regressions orange
-and drawn dashed, stillstands grey. The arrows of successive slice pairs are set side
+Each element has one colour meaning and a key of its own, so the map reads at a glance:
+shorelines (the tracked boundary of each slice) are drawn in greys by age, older darker
+(key: the age scale at the right, every slice ticked, as many named as fit); along each
+transect an arrow runs from the boundary's position at the older slice to its position
+at the younger one, coloured by its sense only (key: the legend): transgressions blue
+and solid, regressions orange and dashed, stillstands grey and dotted (the GIS styles'
+colours). How fast is in the tables and the position figures, not in a colour ramp
+that would compete with the ages. The arrows of successive slice pairs are set side
 by side across the transect, oldest pair on the left looking basinward, so that a
 shoreline moving back and forth does not draw over itself; with many transects the
 arrows are drawn on at most :data:`MAX_ARROW_TRANSECTS` of them, evenly picked (every
@@ -24,8 +27,15 @@ import shapely
 
 from ..palette import EDGE_COLOR, MUTED_COLOR
 from .canvas import figure_style, new_figure
-from .mapframe import coordinate_labels, north_arrow, scale_bar, set_map_extent
-from .scales import age_cmap, age_norm, rate_cmap, rate_norm
+from .labels import drop_overlapping, fit_text, short_name, thin
+from .mapframe import (
+    allotted_transform,
+    coordinate_labels,
+    north_arrow,
+    scale_bar,
+    set_map_extent,
+)
+from .scales import age_norm, shoreline_age_cmap
 from .shapes import draw_lines
 
 if TYPE_CHECKING:
@@ -44,7 +54,13 @@ __all__ = [
 MAX_ARROW_TRANSECTS = 8
 """Most transects that carry shift arrows on the migration map."""
 
-SENSE_LINESTYLES = {"transgression": "-", "regression": (0, (3.0, 1.6)), "stillstand": ":", "": ":"}
+SENSE_LINESTYLES = {
+    "transgression": "-",
+    "regression": (0, (3.0, 1.6)),
+    "stillstand": ":",
+    "uncertain": (0, (1.0, 1.5)),
+    "": ":",
+}
 """Arrow line style by sense (a second cue besides the colour)."""
 
 
@@ -111,6 +127,8 @@ def migration_map(result: BuildResult, ax: Axes | None = None) -> Axes:
     from matplotlib.lines import Line2D
     from matplotlib.patches import FancyArrowPatch
 
+    from ..io.styles import SENSE_COLORS
+
     project = result.project
     scheme = project.scheme
     grid = result.grid
@@ -120,23 +138,27 @@ def migration_map(result: BuildResult, ax: Axes | None = None) -> Axes:
         if ax is None:
             ax = new_figure(7.5, 6.3).add_axes((0.09, 0.19, 0.62, 0.74))
         draw_lines(ax, grid.area.boundary, colors=EDGE_COLOR, linewidths=0.8, zorder=1)
+        transect_labels = []
         for t in result.transects:
             draw_lines(
                 ax, t.line, colors=MUTED_COLOR, linewidths=0.4, linestyles=(0, (5, 3)), zorder=2
             )
             x0, y0 = t.line.coords[0]
-            ax.annotate(
-                t.transect,
-                (x0, y0),
-                xytext=(0, 2),
-                textcoords="offset points",
-                fontsize=5.5,
-                color=MUTED_COLOR,
-                ha="center",
-                va="bottom",
-                zorder=2,
+            transect_labels.append(
+                ax.annotate(
+                    short_name(t.transect, 10),
+                    (x0, y0),
+                    xytext=(0, 2),
+                    textcoords="offset points",
+                    fontsize=5.5,
+                    color=MUTED_COLOR,
+                    ha="center",
+                    va="bottom",
+                    zorder=2,
+                    annotation_clip=False,
+                )
             )
-        anorm, acmap = age_norm([m.slice.age for m in maps]), age_cmap()
+        anorm, acmap = age_norm([m.slice.age for m in maps]), shoreline_age_cmap()
         for m in maps:
             draw_lines(
                 ax,
@@ -149,9 +171,6 @@ def migration_map(result: BuildResult, ax: Axes | None = None) -> Axes:
 
         shifts = result.shifts
         rows = shifts[shifts["geometry"].notna()] if len(shifts) else shifts
-        # The scale covers every rate, not only those drawn, so it is the same scale as
-        # in the tables.
-        rnorm, rcmap = rate_norm(rows["rate_m_per_kyr"] if len(rows) else []), rate_cmap()
         pairs = (
             list(dict.fromkeys(zip(shifts["older_slice"], shifts["younger_slice"], strict=True)))
             if len(shifts)
@@ -180,7 +199,7 @@ def migration_map(result: BuildResult, ax: Axes | None = None) -> Axes:
                 (xb + off[0], yb + off[1]),
                 arrowstyle="-|>,head_length=3.5,head_width=1.8",
                 mutation_scale=1.0,
-                color=rcmap(rnorm(r.rate_m_per_kyr)),
+                color=SENSE_COLORS.get(r.sense, SENSE_COLORS["stillstand"]),
                 linewidth=1.3,
                 linestyle=SENSE_LINESTYLES.get(r.sense, ":"),
                 shrinkA=0,
@@ -193,70 +212,78 @@ def migration_map(result: BuildResult, ax: Axes | None = None) -> Axes:
         coordinate_labels(ax, grid.crs if grid.crs is not None else project.working_crs)
         if scheme.tracks_shoreline:
             title = f"Shorelines and their shifts, {len(maps)} slices"
-            line_label = "shoreline, coloured by age"
+            line_label = "shoreline at each slice (age at right)"
         else:
             name = scheme.boundary_name(scheme.tracked_boundary)
-            title = f"Boundary {name} and its shifts, {len(maps)} slices"
-            line_label = "tracked boundary, coloured by age"
-        ax.set_title(title, loc="left", fontsize=10)
+            title = f"Boundary {short_name(name, 40)} and its shifts, {len(maps)} slices"
+            line_label = "tracked boundary at each slice"
+        title_text = ax.set_title(title, loc="left", fontsize=10)
+        box = allotted_transform(ax)
+        renderer = ax.figure.canvas.get_renderer()
+        fit_text(title_text, ax.get_window_extent(renderer).width, renderer)
+        drop_overlapping(transect_labels, renderer)
 
-        cax = ax.inset_axes((1.04, 0.55, 0.035, 0.45))
+        # the age key: every slice ticked, as many named as fit without touching
+        cax = ax.inset_axes((1.04, 0.2, 0.035, 0.8), transform=box)
         sm = ScalarMappable(norm=anorm, cmap=acmap)
         cb = ax.figure.colorbar(sm, cax=cax)
-        cb.set_label(f"Slice age ({unit})", fontsize=8)
-        cb.set_ticks([m.slice.age for m in maps])
-        cb.set_ticklabels([f"{m.slice.name}  {m.slice.age:.6g}" for m in maps], fontsize=6.5)
+        cb.set_label(f"Slice age ({unit}), older darker", fontsize=8)
         cax.invert_yaxis()  # youngest at the top, as in a stratigraphic column
-        if len(rows):
-            rax = ax.inset_axes((1.04, 0.0, 0.035, 0.45))
-            cb2 = ax.figure.colorbar(ScalarMappable(norm=rnorm, cmap=rcmap), cax=rax)
-            cb2.set_label("Shift rate (m/kyr), + landward", fontsize=8)
-            cb2.ax.tick_params(labelsize=7)
+        ages = np.array([m.slice.age for m in maps])
+        order = np.argsort(ages)
+        height = cax.get_window_extent(renderer).height
+        label_px = 6.5 * 1.35 * ax.figure.dpi / 72.0
+        named = thin(anorm(ages[order]) * height, label_px)
+        cax.yaxis.set_ticks(ages[order], minor=True)
+        cax.yaxis.set_ticks(ages[order][named])
+        cax.yaxis.set_ticklabels(
+            [
+                f"{short_name(maps[i].slice.name, 12)}  {maps[i].slice.age:.4g}"
+                for i in order[named]
+            ],
+            fontsize=6.5,
+        )
+        cax.tick_params(which="minor", length=2, width=0.5)
 
         handles = [
             Line2D([], [], color=acmap(0.5), linewidth=1.4),
             Line2D([], [], color=MUTED_COLOR, linewidth=0.5, linestyle=(0, (5, 3))),
-            Line2D(
-                [],
-                [],
-                color=rcmap(1.0),
-                linewidth=1.3,
-                linestyle="-",
-                marker=">",
-                markersize=4,
-                markevery=[-1],
-            ),
-            Line2D(
-                [],
-                [],
-                color=rcmap(0.0),
-                linewidth=1.3,
-                linestyle=(0, (3.0, 1.6)),
-                marker=">",
-                markersize=4,
-                markevery=[-1],
-            ),
-            Line2D([], [], color=rcmap(0.5), linewidth=1.3, linestyle=":"),
         ]
-        labels = [
-            line_label,
-            "transect (label at landward end)",
-            "transgression (landward shift)",
-            "regression (seaward shift)",
-            "stillstand",
-        ]
+        labels = [line_label, "transect (name at landward end)"]
+        for sense, text in (
+            ("transgression", "transgression: landward shift, older to younger"),
+            ("regression", "regression: seaward shift, older to younger"),
+            ("stillstand", "stillstand"),
+            ("uncertain", "uncertain: P10-P90 spans zero"),
+        ):
+            if sense not in SENSE_COLORS:
+                continue
+            handles.append(
+                Line2D(
+                    [],
+                    [],
+                    color=SENSE_COLORS[sense],
+                    linewidth=1.3,
+                    linestyle=SENSE_LINESTYLES[sense],
+                    marker=">" if sense in ("transgression", "regression") else None,
+                    markersize=4,
+                    markevery=[-1],
+                )
+            )
+            labels.append(text)
         ax.legend(
             handles,
             labels,
             loc="upper left",
             bbox_to_anchor=(0.0, -0.1),
-            bbox_transform=ax.transAxes,
+            bbox_transform=box,
             ncol=2,
             frameon=False,
             fontsize=7.5,
             borderaxespad=0.0,
             handlelength=2.6,
         )
-        scale_bar(ax, anchor=(1.04, -0.13), fraction=0.15)
-        north_arrow(ax, at=(1.30, -0.2), height=0.07)
+        # scale bar and north arrow in the column under the age scale, clear of the key
+        scale_bar(ax, anchor=(1.04, 0.0), fraction=0.15)
+        north_arrow(ax, at=(1.36, 0.0), height=0.09)
     return ax

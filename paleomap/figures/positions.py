@@ -4,11 +4,15 @@ Each panel shows the tracked boundary's position on one transect (km from its la
 end, landward up, so a transgression rises) against slice age (youngest on the right,
 time running left to right), with the P10-P90 range of the position as a band. Each
 step between consecutive slices is coloured by its sense (transgression blue,
-regression orange, stillstand grey; the GIS styles' colours), and the panel is labelled
-with the transect's least-squares rate over all slices (m/kyr, positive landward).
-Panels share their axes so transects compare at a glance. The per-pair rates with their
-P10-P90 ranges are in :func:`position_panel` (one transect, labelled steps) and in the
-report's tables.
+regression orange, stillstand grey; the GIS styles' colours; a key names them), and the
+panel is labelled with one rate for the whole series (m/kyr, positive landward): the
+least-squares rate where the shoreline moved one way throughout, otherwise the net rate
+from the oldest to the youngest slice, labelled "net"
+(:func:`paleomap.migration.trend_rate`): a least-squares line through a series that
+goes back and forth describes none of it. Panels share their axes so transects compare
+at a glance. The per-pair rates with their P10-P90 ranges are in :func:`position_panel`
+(one transect, labelled steps, placed so that no label covers another or a point;
+steps without room for a label are counted in the title) and in the report's tables.
 
 Examples
 --------
@@ -25,13 +29,21 @@ import numpy as np
 
 from ..palette import EDGE_COLOR, MUTED_COLOR, SHORELINE_COLOR
 from .canvas import figure_style, new_figure
+from .labels import fit_text, short_name
 
 if TYPE_CHECKING:
     from matplotlib.axes import Axes
 
     from ..results import BuildResult
 
-__all__ = ["COLUMNS", "position_panel", "rate_text", "shoreline_positions"]
+__all__ = [
+    "COLUMNS",
+    "position_panel",
+    "rate_text",
+    "series_rate",
+    "series_rate_text",
+    "shoreline_positions",
+]
 
 COLUMNS = 4
 """Panels per row."""
@@ -64,6 +76,87 @@ def rate_text(
     return out
 
 
+def series_rate(result: BuildResult, transect: str) -> tuple[float, str]:
+    """The one rate of a transect's whole series and its method (``"least-squares"`` or
+    ``"net"``; :func:`paleomap.migration.trend_rate`)."""
+    from ..migration import trend_rate
+
+    pos = result.positions
+    p = pos[pos["transect"] == transect]
+    kyr = result.project.kyr_per_age_unit
+    return trend_rate(p["age"].to_numpy(float) * kyr, p["position_m"].to_numpy(float))
+
+
+def series_rate_text(rate: float, method: str, *, short: bool = False) -> str:
+    """``"least-squares 12 m/kyr"`` or ``"net −5.89 m/kyr"`` (``short``: ``LSQ``).
+
+    >>> series_rate_text(-5.891, "net"), series_rate_text(12.0, "least-squares", short=True)
+    ('net −5.89 m/kyr', 'LSQ 12 m/kyr')
+    """
+    if not method or rate is None or not np.isfinite(rate):
+        return "no rate"
+    name = "LSQ" if (short and method == "least-squares") else method
+    return f"{name} {rate_text(rate)}"
+
+
+def _key(fig_or_ax, *, anchor, loc, ncol, transform=None):
+    """The key of the position figures: band, senses and slice positions."""
+    from matplotlib.lines import Line2D
+    from matplotlib.patches import Patch
+
+    from ..io.styles import SENSE_COLORS
+
+    handles = [
+        Patch(facecolor=SHORELINE_COLOR, alpha=0.18),
+        *(Line2D([], [], color=c, linewidth=1.5) for c in SENSE_COLORS.values()),
+        Line2D([], [], linestyle="none", marker="o", markersize=2.8, color=EDGE_COLOR),
+    ]
+    labels = [
+        "P10-P90 of the position",
+        *(f"{k} step" for k in SENSE_COLORS),
+        "position at a slice",
+    ]
+    return fig_or_ax.legend(
+        handles,
+        labels,
+        loc=loc,
+        ncol=ncol,
+        frameon=False,
+        fontsize=7,
+        bbox_to_anchor=anchor,
+        bbox_transform=transform,
+        borderaxespad=0.0,
+        handlelength=1.8,
+        columnspacing=1.2,
+    )
+
+
+# label offsets (points) tried for a step's rate, nearest first
+_OFFSETS = [(0, 7), (0, -7), (0, 20), (0, -20), (0, 33), (0, -33), (14, 7), (-14, -7)]
+
+
+def _place(ax, text, xy, kept, renderer, **style):
+    """Annotate ``text`` at the first offset where it touches no kept box and stays in
+    the axes; None when there is no such place."""
+    frame = ax.get_window_extent(renderer)
+    for dx, dy in _OFFSETS:
+        t = ax.annotate(
+            text,
+            xy,
+            xytext=(dx, dy),
+            textcoords="offset points",
+            va="bottom" if dy > 0 else "top",
+            **style,
+        )
+        b = t.get_window_extent(renderer)
+        inside = b.x0 >= frame.x0 and b.x1 <= frame.x1 and b.y0 >= frame.y0 and b.y1 <= frame.y1
+        if inside and not any(b.overlaps(k) for k in kept):
+            kept.append(b)
+            return t
+        t.remove()
+    return None
+
+
 def _draw(ax, result, transect, *, label_steps: bool):
     from ..palette import SENSE_COLORS
 
@@ -77,7 +170,8 @@ def _draw(ax, result, transect, *, label_steps: bool):
     sh = result.shifts
     sh = sh[sh["transect"] == transect] if len(sh) else sh
     at = dict(zip(p["slice"], zip(age, km, strict=True), strict=True))
-    for k, r in enumerate(sh.itertuples()):
+    steps = []
+    for r in sh.itertuples():
         (a0, y0), (a1, y1) = (
             at.get(r.older_slice, (np.nan,) * 2),
             at.get(r.younger_slice, (np.nan,) * 2),
@@ -91,31 +185,51 @@ def _draw(ax, result, transect, *, label_steps: bool):
             linewidth=1.5,
             zorder=2,
         )
-        if label_steps:
-            # alternate above and below the line so neighbouring labels do not meet
-            up = k % 2 == 0
-            ax.annotate(
-                rate_text(
-                    r.rate_m_per_kyr,
-                    r.rate_low_m_per_kyr,
-                    r.rate_high_m_per_kyr,
-                    unit=False,
-                    sep="\n",
-                ),
-                ((a0 + a1) / 2, (y0 + y1) / 2),
-                xytext=(0, 7 if up else -7),
-                textcoords="offset points",
-                fontsize=6.5,
-                ha="center",
-                va="bottom" if up else "top",
-                color=EDGE_COLOR,
-                zorder=4,
-                linespacing=1.0,
-                bbox=dict(
-                    boxstyle="round,pad=0.15", facecolor="white", edgecolor="none", alpha=0.8
-                ),
-            )
+        steps.append((r, (a0 + a1) / 2, (y0 + y1) / 2))
     ax.plot(age, km, linestyle="none", marker="o", markersize=2.8, color=EDGE_COLOR, zorder=3)
+    if not label_steps:
+        return 0
+    # Labels go where they touch neither another label nor a slice's point: the
+    # limits are fixed first so that positions on screen are final; the margins leave
+    # room for labels above the highest and below the lowest step.
+    ax.margins(x=0.05, y=0.18)
+    ax.autoscale_view()
+    ax.set_xlim(*ax.get_xlim())
+    ax.set_ylim(*ax.get_ylim())
+    if not ax.xaxis_inverted():
+        ax.invert_xaxis()
+    if not ax.yaxis_inverted():
+        ax.invert_yaxis()
+    renderer = ax.figure.canvas.get_renderer()
+    pts = ax.transData.transform(np.column_stack([age, km])[np.isfinite(km)])
+    from matplotlib.transforms import Bbox
+
+    r_px = 4.0 * ax.figure.dpi / 72.0
+    kept = [Bbox([[x - r_px, y - r_px], [x + r_px, y + r_px]]) for x, y in pts]
+    style = dict(
+        fontsize=6.5,
+        ha="center",
+        color=EDGE_COLOR,
+        zorder=4,
+        linespacing=1.0,
+        bbox=dict(boxstyle="square,pad=0.1", facecolor="white", edgecolor="none", alpha=0.8),
+    )
+    missed = 0
+    for r, xm, ym in steps:
+        if not np.isfinite(r.rate_m_per_kyr):
+            continue
+        full = rate_text(
+            r.rate_m_per_kyr, r.rate_low_m_per_kyr, r.rate_high_m_per_kyr, unit=False, sep="\n"
+        )
+        if _place(ax, full, (xm, ym), kept, renderer, **style) is None:
+            if (
+                _place(
+                    ax, rate_text(r.rate_m_per_kyr, unit=False), (xm, ym), kept, renderer, **style
+                )
+                is None
+            ):
+                missed += 1
+    return missed
 
 
 def position_panel(result: BuildResult, transect: str, ax: Axes | None = None) -> Axes:
@@ -138,24 +252,24 @@ def position_panel(result: BuildResult, transect: str, ax: Axes | None = None) -
     >>> ax = position_panel(result, "T05")   # doctest: +SKIP
     """
     unit = result.project.age_unit
-    rate = {t.transect: t.lsq_rate_m_per_kyr for t in result.transects}.get(transect)
+    rate, method = series_rate(result, transect)
     with figure_style():
         if ax is None:
-            ax = new_figure(7.5, 4.0).add_axes((0.1, 0.14, 0.86, 0.76))
-        _draw(ax, result, transect, label_steps=True)
-        if not ax.xaxis_inverted():
-            ax.invert_xaxis()
-        if not ax.yaxis_inverted():
-            ax.invert_yaxis()
-        ax.set_xlabel(f"Age ({unit})", fontsize=8)
+            ax = new_figure(7.5, 4.4).add_axes((0.1, 0.22, 0.86, 0.66))
+        ax.set_xlabel(f"Age ({unit}), youngest on the right", fontsize=8)
         ax.set_ylabel("Position (km from landward end)", fontsize=8)
-        ax.set_title(
-            f"Shoreline position on {transect}: steps labelled with rate in m/kyr "
-            f"(P10 to P90); least-squares rate {rate_text(rate)}",
+        ax.grid(color="#e6e6e6", linewidth=0.5)
+        missed = _draw(ax, result, transect, label_steps=True)
+        note = f"; {missed} steps without room for a label" if missed else ""
+        title = ax.set_title(
+            f"Shoreline position on {short_name(transect, 20)}: steps labelled with rate in "
+            f"m/kyr (P10 to P90){note}; whole series: {series_rate_text(rate, method)}",
             loc="left",
             fontsize=9,
         )
-        ax.grid(color="#e6e6e6", linewidth=0.5)
+        renderer = ax.figure.canvas.get_renderer()
+        fit_text(title, ax.figure.get_figwidth() * ax.figure.dpi * 0.88, renderer)
+        _key(ax, anchor=(0.0, -0.17), loc="upper left", ncol=5, transform=ax.transAxes)
     return ax
 
 
@@ -179,25 +293,19 @@ def shoreline_positions(result: BuildResult, transects=None, axes=None) -> np.nd
     --------
     >>> axes = shoreline_positions(result)   # doctest: +SKIP
     """
-    from matplotlib.lines import Line2D
-    from matplotlib.patches import Patch
-
-    from ..palette import SENSE_COLORS
-
     ids = list(transects) if transects is not None else [t.transect for t in result.transects]
-    rates = {t.transect: t.lsq_rate_m_per_kyr for t in result.transects}
     unit = result.project.age_unit
     with figure_style():
         if axes is None:
             n = max(len(ids), 1)
             cols = min(COLUMNS, n)
             rows = math.ceil(n / cols)
-            fig = new_figure(7.5, 1.2 + 1.5 * rows)
+            fig = new_figure(7.5, 1.4 + 1.5 * rows)
             grid = fig.subplots(rows, cols, sharex=True, sharey=True, squeeze=False)
             fig.subplots_adjust(
                 left=0.09,
                 right=0.98,
-                top=1 - 0.75 / fig.get_figheight(),
+                top=1 - 0.95 / fig.get_figheight(),
                 bottom=0.75 / fig.get_figheight(),
                 hspace=0.45,
                 wspace=0.12,
@@ -213,32 +321,33 @@ def shoreline_positions(result: BuildResult, transects=None, axes=None) -> np.nd
             fig.supylabel(
                 "Shoreline position (km from landward end), landward up", fontsize=8, x=0.01
             )
-            fig.suptitle(
-                "Shoreline position against age per transect (P10-P90 band; least-squares rate "
-                "in each title)",
-                fontsize=10,
+            sup = fig.suptitle(
+                "Shoreline position against age per transect\n"
+                "Rate in each title: least-squares (LSQ) if the shoreline moved one way "
+                "throughout, else net",
+                fontsize=9,
                 x=0.09,
                 ha="left",
                 y=1 - 0.12 / fig.get_figheight(),
             )
-            handles = [
-                Patch(facecolor=SHORELINE_COLOR, alpha=0.18),
-                *(Line2D([], [], color=c, linewidth=1.5) for c in SENSE_COLORS.values()),
-            ]
-            labels = ["P10-P90", *SENSE_COLORS]
-            fig.legend(
-                handles,
-                labels,
+            fit_text(sup, fig.get_figwidth() * fig.dpi * 0.9)
+            _key(
+                fig,
+                anchor=(0.08, 1 - 0.5 / fig.get_figheight()),
                 loc="upper left",
-                ncol=4,
-                frameon=False,
-                fontsize=7,
-                bbox_to_anchor=(0.08, 1 - 0.32 / fig.get_figheight()),
+                ncol=5,
             )
         axes = np.asarray(axes, dtype=object)
         for ax, tid in zip(axes, ids, strict=True):
             _draw(ax, result, tid, label_steps=False)
-            ax.set_title(f"{tid}: {rate_text(rates.get(tid))}", fontsize=7.5, loc="left", pad=2)
+            rate, method = series_rate(result, tid)
+            title = ax.set_title(
+                f"{short_name(tid, 12)}: {series_rate_text(rate, method, short=True)}",
+                fontsize=7.5,
+                loc="left",
+                pad=2,
+            )
+            fit_text(title, ax.get_window_extent(ax.figure.canvas.get_renderer()).width)
             ax.tick_params(labelsize=6.5, length=2)
             ax.grid(color="#e6e6e6", linewidth=0.5)
         for ax in axes:  # shared axes invert together, hence the checks

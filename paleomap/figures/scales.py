@@ -3,7 +3,9 @@
 * **Belts**: the scheme's own colours (:attr:`paleomap.scheme.Scheme.colors`, the
   palette's defaults unless the project overrides a belt's colour).
 * **Ages**: :data:`~paleomap.palette.AGE_COLORMAP`, cut at 85 % of its range so
-  the youngest lines stay visible on white; older is darker.
+  the youngest lines stay visible on white; older is darker. On the migration map,
+  where the shift arrows carry colour, shorelines use greys instead
+  (:func:`shoreline_age_cmap`).
 * **Rates**: diverging, regression orange through stillstand grey to transgression
   blue (:data:`paleomap.palette.SENSE_COLORS`, the GIS styles' colours), symmetric
   about zero so the hue tells the sense and the depth of colour the speed.
@@ -20,7 +22,14 @@ import numpy as np
 
 from ..palette import AGE_COLORMAP
 
-__all__ = ["age_cmap", "age_norm", "belt_cmap", "rate_cmap", "rate_norm"]
+__all__ = [
+    "age_cmap",
+    "age_norm",
+    "belt_cmap",
+    "rate_cmap",
+    "rate_norm",
+    "shoreline_age_cmap",
+]
 
 
 def belt_cmap(scheme):
@@ -43,6 +52,20 @@ def age_cmap():
     base = mpl.colormaps[AGE_COLORMAP]
     # viridis_r starts at yellow: skip its lightest 15 % (hard to see on white).
     return ListedColormap(base(np.linspace(0.15, 1.0, 256)), name="paleomap_age")
+
+
+def shoreline_age_cmap():
+    """Greys for ages on the migration map (older darker), from light grey to black.
+
+    Grey leaves colour to the shift arrows' senses, so each colour on that map means one
+    thing.
+
+    >>> [round(float(v), 2) for v in shoreline_age_cmap()(1.0)[:3]]
+    [0.0, 0.0, 0.0]
+    """
+    from matplotlib.colors import LinearSegmentedColormap
+
+    return LinearSegmentedColormap.from_list("paleomap_shoreline_age", ["#c4c4c4", "#000000"])
 
 
 def age_norm(ages):

@@ -23,6 +23,7 @@ import numpy as np
 
 from ..palette import EDGE_COLOR, MUTED_COLOR, SHORELINE_COLOR
 from .canvas import REPORT_WIDTH_IN, figure_style, new_figure
+from .labels import clean_text, fit_text, short_name
 from .mapframe import (
     MAP_RIGHT,
     coordinate_labels,
@@ -49,6 +50,8 @@ __all__ = [
 
 CORE_MARKER_SIZE = 30.0
 """Area (points squared) of a posted core marker."""
+
+_LEGEND_CHARS = 30  # a legend label in the column beside the map
 
 
 def age_label(age: float, unit: str) -> str:
@@ -78,13 +81,16 @@ def find_slice_map(result: BuildResult, which) -> SliceMap:
 
 
 def slice_title(m: SliceMap, age_unit: str) -> str:
-    """``"Slice KS3 at 74 ka"``, naming the surface when the slice is at one."""
+    """``"Slice KS3 at 74 ka"``, naming the surface when the slice is at one.
+
+    Names are drawn as :func:`~paleomap.figures.labels.clean_text` makes them.
+    """
     where = (
-        f" (surface {m.slice.surface})"
+        f" (surface {clean_text(m.slice.surface)})"
         if m.slice.surface and m.slice.surface != m.slice.name
         else ""
     )
-    return f"Slice {m.slice.name}{where} at {age_label(m.slice.age, age_unit)}"
+    return f"Slice {clean_text(m.slice.name)}{where} at {age_label(m.slice.age, age_unit)}"
 
 
 def map_axes(width_in: float = REPORT_WIDTH_IN, height_in: float = 5.8) -> Axes:
@@ -197,29 +203,39 @@ def slice_map(result: BuildResult, which=0, ax: Axes | None = None) -> Axes:
         w, so, e, n = grid.area.bounds
         set_map_extent(ax, (w, so, e, n))
         coordinate_labels(ax, grid.crs if grid.crs is not None else project.working_crs)
-        ax.set_title(slice_title(m, project.age_unit), loc="left", fontsize=10)
+        # The title on its own line and the core count on a line under it, so a long
+        # slice name can never run into it; both cut to the map's width.
+        title = ax.set_title(slice_title(m, project.age_unit), loc="left", fontsize=10, pad=13)
         q = m.quality
+        sub = None
         if q:
-            ax.text(
-                1.0,
-                1.01,
+            sub = ax.text(
+                0.0,
+                1.008,
                 f"{q.get('cores_used', len(s))} cores, "
                 f"{q.get('cores_in_own_belt', '?')} in their own belt",
                 transform=ax.transAxes,
-                ha="right",
+                ha="left",
                 va="bottom",
                 fontsize=7.5,
                 color=MUTED_COLOR,
             )
+        renderer = ax.figure.canvas.get_renderer()
+        width = ax.get_window_extent(renderer).width
+        fit_text(title, width, renderer)
+        if sub is not None:
+            fit_text(sub, width, renderer)
 
         handles = [
             Patch(facecolor=b.color, edgecolor=EDGE_COLOR, linewidth=0.4) for b in scheme.belts
         ]
-        labels = [b.label or b.id for b in scheme.belts]
+        labels = [short_name(b.label or b.id, _LEGEND_CHARS) for b in scheme.belts]
         boundary = (
             "shoreline"
             if scheme.tracks_shoreline
-            else f"boundary {scheme.boundary_name(scheme.tracked_boundary)}"
+            else short_name(
+                f"boundary {scheme.boundary_name(scheme.tracked_boundary)}", _LEGEND_CHARS
+            )
         )
         handles += [
             Line2D(
@@ -274,7 +290,9 @@ def slice_map(result: BuildResult, which=0, ax: Axes | None = None) -> Axes:
                 )
             )
             labels.append("control point (interpretation)")
-        side_legend(ax, handles, labels, title=f"Belts ({scheme.name} scheme)")
+        side_legend(
+            ax, handles, labels, title=short_name(f"Belts ({scheme.name} scheme)", _LEGEND_CHARS)
+        )
         scale_bar(ax)
         north_arrow(ax)
     return ax

@@ -18,6 +18,7 @@ import numpy as np
 
 from ..palette import EDGE_COLOR, MUTED_COLOR, NO_RECORD_COLOR, SHORELINE_COLOR
 from .canvas import figure_style, new_figure
+from .labels import short_name, surface_labels
 
 if TYPE_CHECKING:
     from matplotlib.axes import Axes
@@ -60,7 +61,6 @@ def wheeler_chart(
     """
     from matplotlib.lines import Line2D
     from matplotlib.patches import Patch, Rectangle
-    from matplotlib.transforms import blended_transform_factory
 
     from .scales import belt_cmap
 
@@ -105,8 +105,8 @@ def wheeler_chart(
         ax.set_xlim(extent[0], extent[1])
         ax.set_ylim(extent[2], extent[3])
 
-        right = blended_transform_factory(ax.transAxes, ax.transData)
-        for sf in sorted(project.surfaces, key=lambda x: x.age):
+        ordered = sorted(project.surfaces, key=lambda x: x.age)
+        for sf in ordered:
             ax.axhline(
                 sf.age,
                 color=EDGE_COLOR,
@@ -114,18 +114,15 @@ def wheeler_chart(
                 linestyle="-" if sf.erosional else (0, (4, 2)),
                 zorder=3,
             )
-            label = f"{sf.name} {sf.age:.6g}" + (" (erosional)" if sf.erosional else "")
-            ax.text(
-                1.01,
-                sf.age,
-                label,
-                transform=right,
-                va="center",
-                ha="left",
-                fontsize=7,
-                color=EDGE_COLOR,
-                clip_on=False,
-            )
+        surface_labels(
+            ax,
+            [sf.age for sf in ordered],
+            [
+                f"{short_name(sf.name, 12)} {sf.age:.4g}" + (" (eros.)" if sf.erosional else "")
+                for sf in ordered
+            ],
+            fontsize=7,
+        )
 
         ok = np.isfinite(s.boundary_m)
         ax.plot(
@@ -162,17 +159,19 @@ def wheeler_chart(
             )
 
         ax.set_xlabel(
-            f"Distance along transect {s.transect} (km), landward to basinward", fontsize=8
+            f"Distance along transect {short_name(s.transect, 20)} (km), landward to basinward",
+            fontsize=8,
         )
         ax.set_ylabel(f"Age ({unit}), youngest at the top", fontsize=8)
         ax.tick_params(labelsize=7.5)
         boundary = (
             "shoreline"
             if scheme.tracks_shoreline
-            else f"boundary {scheme.boundary_name(scheme.tracked_boundary)}"
+            else short_name(f"boundary {scheme.boundary_name(scheme.tracked_boundary)}", 20)
         )
         ax.set_title(
-            f"Chronostratigraphic (Wheeler) chart along {s.transect}, {len(a)} ages",
+            f"Chronostratigraphic (Wheeler) chart along {short_name(s.transect, 20)}, "
+            f"{len(a)} ages",
             loc="left",
             fontsize=10,
             pad=14,
@@ -181,7 +180,7 @@ def wheeler_chart(
         handles = [
             Patch(facecolor=b.color, edgecolor=EDGE_COLOR, linewidth=0.4) for b in scheme.belts
         ]
-        labels = [b.label or b.id for b in scheme.belts]
+        labels = [short_name(b.label or b.id, 28) for b in scheme.belts]
         handles += [
             Patch(facecolor=NO_RECORD_COLOR, edgecolor=MUTED_COLOR, hatch="///", linewidth=0.4),
             Line2D([], [], color=SHORELINE_COLOR, linewidth=1.8),

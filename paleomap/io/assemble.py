@@ -6,8 +6,13 @@ in log depth to depths below the core top. The result is the three tables the CS
 has always produced (text or number cells and a ``line`` per row), so one validation
 (:func:`paleomap.io.core_tables.build_cores`) serves every source.
 
-Validation reports a problem at a table's name, line and column; where a row came from
-in the user's file is kept by :class:`paleomap.io.origins.Origins` (re-exported here).
+Problems of tables that are not plain CSV files are put back in place by
+:class:`paleomap.io.origins.Origins`.
+
+Examples
+--------
+>>> Tables().files
+{}
 """
 
 from __future__ import annotations
@@ -21,11 +26,11 @@ import pandas as pd
 
 from ..errors import ProblemLog
 from .core_tables import parse_number
-from .origins import Origins, Where
+from .origins import Origins
 from .sheets import SHEET_SUFFIXES, read_sheet_table
 from .sources import TABLE_COLUMNS, InputSources
 
-__all__ = ["Origins", "Tables", "Where", "read_tables"]
+__all__ = ["Tables", "read_tables"]
 
 logger = logging.getLogger(__name__)
 
@@ -132,6 +137,7 @@ def read_tables(cfg, root: Path, project_file: str, log: ProblemLog, *, source, 
         out.picks = out.picks[keep].reset_index(drop=True)
     if wells is not None and cfg.cores is not None and out.cores is not None:
         out.cores = _datum_from_wells(out.cores, wells)
+        _wells_not_in_cores(out, wells, names["cores"], log)
     out.files = {k: v for k, v in names.items() if v is not None}
     if sources.depth_reference == "log" and out.cores is not None:
         _from_log_depth(out, log)
@@ -175,6 +181,32 @@ def _datum_from_wells(cores: pd.DataFrame, wells: pd.DataFrame) -> pd.DataFrame:
             for cid, v in zip(cores["core_id"], cores[column], strict=True)
         ]
     return cores
+
+
+def _wells_not_in_cores(out: Tables, wells: pd.DataFrame, cores_name: str, log) -> None:
+    """Report once, at its WELL mnemonic, each LAS well the cores table lacks.
+
+    Its intervals are dropped: the validation would name each of them, at lines of no file.
+    """
+    known = {str(c).strip() for c in out.cores["core_id"]}
+    missing = {}
+    for cid, line in zip(wells["core_id"], wells["line"], strict=True):
+        if cid not in known:
+            missing[cid] = out.origins.where(wells.attrs["name"], int(line))
+    for cid, where in missing.items():
+        anchor = where.columns.get("core_id", where) if where is not None else None
+        log.error(
+            anchor.file if anchor else wells.attrs["name"],
+            anchor.line if anchor else None,
+            None,
+            cid,
+            f"is not in {cores_name}",
+            "add the well to the cores table (it gives the positions) or correct its id",
+            place=anchor.place if anchor else None,
+        )
+    if missing and out.intervals is not None:
+        keep = [str(c).strip() not in missing for c in out.intervals["core_id"]]
+        out.intervals = out.intervals[keep].reset_index(drop=True)
 
 
 def _number(value) -> float | None:

@@ -257,10 +257,15 @@ def _read_one(path, shown, sources, depth_unit, log, codes, crs, positions, chec
     """(core id, header values and places, intervals) of one LAS file, or None."""
     import lasio
 
+    from ..errors import InputError
+    from .inputfiles import read_input_bytes
+
     try:
-        raw = path.read_bytes()
-    except OSError as exc:
-        log.error(shown, None, None, None, f"cannot be read: {exc.strerror or exc}")
+        # The shared guard: a regular file within the size limit, read without blocking.
+        raw = read_input_bytes(path, shown=shown)
+    except InputError as exc:
+        for p in exc.problems:
+            log.error(shown, None, None, None, p.message, p.hint)
         return None
     checksum(path)
     try:

@@ -1,10 +1,10 @@
 """Where the rows of an assembled table came from, to report problems in place.
 
-Validation reports a problem at a table's name, line and column. For a table that is not
-a plain CSV file that place means little, so :class:`Origins` remembers where each row
-came from (a spreadsheet's sheet and row, a LAS file's line and section, an AGS4 group's
-row) and :meth:`Origins.relocate` puts each problem back where the user can find it.
-The readers of each format (:mod:`.assemble`, :mod:`.las`, :mod:`.ags`) fill it.
+Validation (:func:`paleomap.io.core_tables.build_cores`) reports a problem at a table's name,
+line and column. For a table that is not a plain CSV file that place means little, so
+:class:`Origins` remembers where each row came from (a spreadsheet's sheet and row, a LAS
+file's line and section, an AGS4 group's row) and :meth:`Origins.relocate` puts each
+problem back where the user can find it.
 
 Examples
 --------
@@ -73,6 +73,10 @@ class Origins:
     def add_row(self, table: str, line: int, where: Where) -> None:
         """One row of a table made from a LAS or AGS4 file, under a line number of its own."""
         self._rows.setdefault(table, {})[line] = where
+
+    def where(self, table: str, line: int) -> Where | None:
+        """Where a row of a table made from a LAS or AGS4 file came from."""
+        return self._rows.get(table, {}).get(line)
 
     def relocate(self, log: ProblemLog) -> None:
         """Rewrite the log's problems to name the place in the user's file."""

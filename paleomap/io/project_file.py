@@ -284,7 +284,7 @@ class _ConfigReader:
         return value
 
     # -- typed values ------------------------------------------------------------------
-    def text(self, table, path, key, required=True, choices=None) -> str | None:
+    def text(self, table, path, key, required=True, choices=None, name=False) -> str | None:
         if key not in table:
             if required:
                 hint = f"choose one of {list(choices)}" if choices else None
@@ -294,10 +294,26 @@ class _ConfigReader:
         if not isinstance(value, str) or not value.strip():
             self.err((*path, key), value, "must be a non-empty text in quotes")
             return None
+        if name and not self.printable((*path, key), value):
+            return None
         if choices is not None and value not in choices:
             self.err((*path, key), value, "is not allowed", f"choose one of {list(choices)}")
             return None
         return value.strip()
+
+    def printable(self, path, value: str) -> bool:
+        """Names and labels reach figures, XML styles, file names and the report: a
+        control character (a bell, an escape, a line break) is refused here."""
+        bad = next((c for c in value if not c.isprintable()), None)
+        if bad is None:
+            return True
+        self.err(
+            path,
+            value,
+            f"contains a control character (U+{ord(bad):04X})",
+            "names and labels are one line of visible characters",
+        )
+        return False
 
     def number(
         self,
@@ -373,7 +389,8 @@ class _ConfigReader:
 
         out: dict = {}
         project = self.table("project") or {}
-        out["name"] = self.text(project, ("project",), "name") if "project" in self.data else None
+        has_project = "project" in self.data
+        out["name"] = self.text(project, ("project",), "name", name=True) if has_project else None
         out["crs"] = self.read_crs(project) if "project" in self.data else None
         output = self.table("output") or {}
         if "crs" in output:
@@ -467,7 +484,7 @@ class _ConfigReader:
         for i, table in enumerate(raw):
             path = ("surfaces", i)
             self.check_keys(table, path, _TABLES["surfaces"], "[[surfaces]]")
-            name = self.text(table, path, "name")
+            name = self.text(table, path, "name", name=True)
             age = self.number(table, path, "age", required=True, minimum=0, min_open=True)
             if "age" in table and age is None and isinstance(table["age"], (int, float)):
                 # Replace the range message with the contract's wording.
@@ -557,7 +574,7 @@ class _ConfigReader:
                 'write colors = { gravel = "#6b4423" }',
             )
             return None
-        name = self.text(table, path, "name", required=False)
+        name = self.text(table, path, "name", required=False, name=True)
 
         also_track: tuple = ()
         kind = "custom"
@@ -644,7 +661,7 @@ class _ConfigReader:
         for i, table in enumerate(raw):
             bpath = (*path, i)
             self.check_keys(table, bpath, _BELT_KEYS, "a belt")
-            belt_id = self.text(table, bpath, "id")
+            belt_id = self.text(table, bpath, "id", name=True)
             if "marine" not in table:
                 self.err(
                     (*bpath, "marine"), None, "is missing", "write marine = true or marine = false"
@@ -667,7 +684,7 @@ class _ConfigReader:
             if not isinstance(color, str) or not _HEX.match(color):
                 self.err((*bpath, "color"), color, "is not a colour", 'write "#rrggbb"')
                 color = None
-            label = self.text(table, bpath, "label", required=False)
+            label = self.text(table, bpath, "label", required=False, name=True)
             if belt_id is not None and label is None:
                 label = belt_id.replace("_", " ")
             if belt_id is None or marine is None or aliases is None or color is None:
@@ -768,17 +785,21 @@ class _ConfigReader:
         d = MappingSettings()
         values = {
             "model": self.text(table, p, "model", required=False, choices=MAPPING_MODELS),
-            "range_m": self.number(table, p, "range_m", minimum=0, min_open=True),
+            "range_m": self.number(table, p, "range_m", minimum=0, maximum=1e8, min_open=True),
             "anisotropy": self.number(table, p, "anisotropy", minimum=0, maximum=1, min_open=True),
             "azimuth_deg": self.number(
                 table, p, "azimuth_deg", minimum=0, maximum=360, max_open=True
             ),
             "nugget": self.number(table, p, "nugget", minimum=0, maximum=1, max_open=True),
-            "samples": self.number(table, p, "samples", minimum=1, integer=True),
-            "burn_in": self.number(table, p, "burn_in", minimum=0, integer=True),
-            "seed": self.number(table, p, "seed", minimum=0, integer=True),
+            # Upper bounds: far above any useful value, low enough that a typo (1e9
+            # samples) is an error at once rather than a run that never ends.
+            "samples": self.number(table, p, "samples", minimum=1, maximum=10_000, integer=True),
+            "burn_in": self.number(table, p, "burn_in", minimum=0, maximum=10_000, integer=True),
+            "seed": self.number(table, p, "seed", minimum=0, maximum=2**63 - 1, integer=True),
             "deterministic": self.boolean(table, p, "deterministic"),
-            "neighbours": self.number(table, p, "neighbours", minimum=3, integer=True),
+            "neighbours": self.number(
+                table, p, "neighbours", minimum=3, maximum=1000, integer=True
+            ),
             "engine": self.text(table, p, "engine", required=False, choices=tuple(ENGINES)),
         }
         joint = self.boolean(table, p, "joint")
@@ -811,9 +832,11 @@ class _ConfigReader:
         values = {
             "transects": Path(transects) if transects else None,
             "transect_spacing_m": self.number(
-                table, p, "transect_spacing_m", minimum=0, min_open=True
+                table, p, "transect_spacing_m", minimum=0, maximum=1e8, min_open=True
             ),
-            "stillstand_m_per_kyr": self.number(table, p, "stillstand_m_per_kyr", minimum=0),
+            "stillstand_m_per_kyr": self.number(
+                table, p, "stillstand_m_per_kyr", minimum=0, maximum=1e6
+            ),
         }
         return replace(MigrationSettings(), **{k: v for k, v in values.items() if v is not None})
 

@@ -35,11 +35,12 @@ import pyproj
 
 from ..agemodel import build_age_models, sample_slices
 from ..crs import delivery_crs_for, working_crs_for
-from ..errors import ProblemLog
+from ..errors import InputError, ProblemLog
 from ..project import Project
 from ..scheme import name_key, suggest_names
 from .assemble import read_tables
 from .core_tables import build_cores, parse_number
+from .inputfiles import MAX_INPUT_BYTES, input_file_problem, read_input_bytes
 from .project_file import ProjectConfig, TomlLocator, parse_config
 from .sources import header_names
 
@@ -57,13 +58,27 @@ PICK_COLUMNS = (("core_id", "surface", "depth"), ())
 _CSV_SUFFIXES = {".csv", ".txt"}
 
 
-def load_project(path: str | os.PathLike) -> Project:
+def load_project(
+    path: str | os.PathLike,
+    *,
+    allow_outside_inputs: bool = False,
+    max_input_bytes: int = MAX_INPUT_BYTES,
+) -> Project:
     """Read and validate a project file and every file it names.
+
+    Every file goes through :mod:`paleomap.io.inputfiles` first: only regular files
+    (a FIFO or a device is refused at once), at most ``max_input_bytes`` each, and only
+    inside the project file's folder unless ``allow_outside_inputs``.
 
     Parameters
     ----------
     path : str or path-like
         The project's TOML file. Paths inside it are relative to it.
+    allow_outside_inputs : bool
+        Allow the project file to name files outside its own folder (the CLI's
+        ``--allow-outside-inputs``).
+    max_input_bytes : int
+        Size limit of each input file.
 
     Returns
     -------
@@ -132,6 +147,12 @@ def load_project(path: str | os.PathLike) -> Project:
                 "names a folder, not a file",
                 "give the path of the file itself, relative to the project file",
             )
+            return None
+        problem = input_file_problem(
+            target, root=root, allow_outside=allow_outside_inputs, max_bytes=max_input_bytes
+        )
+        if problem is not None:
+            log.error(shown, cfg.lines.get(key), key, value, problem.message, problem.hint)
             return None
         return target
 
@@ -220,8 +241,10 @@ def load_project(path: str | os.PathLike) -> Project:
             "a map needs at least two cores with a record at a slice (three or more to fit "
             "a trend)",
         )
+    if not log.has_errors and cfg.crs is not None and not _is_geographic(cfg.crs):
+        _warn_degrees(cores, cfg, log)
     if not log.has_errors:
-        _check_grid_size(cores, grid, area, shown, TomlLocator(text), log)
+        _check_grid_size(cores, grid, area, shown, TomlLocator(text), log, migration)
     # Problems of spreadsheets, LAS and AGS4 files named at their place in those files.
     tables.origins.relocate(log)
     log.raise_if_errors()
@@ -303,14 +326,23 @@ def read_csv_table(
 
 
 def _read_bytes(path: Path, shown: str, key_line, key, log: ProblemLog) -> bytes | None:
+    # Where a file may lie was checked where its path was read (``source``); here only
+    # what it is: a regular file within the size limit, read without blocking.
     try:
-        return path.read_bytes()
-    except FileNotFoundError:
-        log.error(shown, key_line, key, None, "file not found", f"looked for {path}")
-    except IsADirectoryError:
-        log.error(shown, key_line, key, None, "is a folder, not a file")
-    except OSError as exc:
-        log.error(shown, key_line, key, None, f"cannot be read: {exc.strerror or exc}")
+        if not path.exists():
+            log.error(shown, key_line, key, None, "file not found", f"looked for {path}")
+            return None
+        if path.is_dir():
+            log.error(shown, key_line, key, None, "is a folder, not a file")
+            return None
+    except (OSError, ValueError) as exc:
+        log.error(shown, key_line, key, None, f"cannot be read: {exc}")
+        return None
+    try:
+        return read_input_bytes(path, shown=shown)
+    except InputError as exc:
+        for p in exc.problems:
+            log.error(shown, key_line, key, None, p.message, p.hint)
     return None
 
 
@@ -701,7 +733,9 @@ def _read_transects(path, shown, project_crs, working, log, checksums, root, whe
     return tuple(out)
 
 
-def _check_grid_size(cores, grid, area, shown: str, locate: TomlLocator, log) -> None:
+def _check_grid_size(
+    cores, grid, area, shown: str, locate: TomlLocator, log, migration=None
+) -> None:
     """Refuse, before any work, a grid with more cells than paleomap allocates.
 
     The extent is the one :func:`paleomap.grid.make_grid` takes (the area's bounds, or
@@ -734,6 +768,8 @@ def _check_grid_size(cores, grid, area, shown: str, locate: TomlLocator, log) ->
     rows, cols = shape(cell)
     cells = rows * cols
     if np.isfinite(cells) and cells <= MAX_GRID_CELLS:
+        _check_small_grid(rows, cols, minx, miny, maxx, maxy, cell, shown, locate, log)
+        _check_transect_spacing(minx, miny, maxx, maxy, migration, shown, locate, log)
         return
     line = locate.line_of(("grid", "cell_size"))
     width, height = maxx - minx, maxy - miny
@@ -761,6 +797,70 @@ def _check_grid_size(cores, grid, area, shown: str, locate: TomlLocator, log) ->
         f"gives a grid of {_count(rows)} x {_count(cols)} = {_count(cells)} cells, more than the "
         f"{MAX_GRID_CELLS:,} paleomap allocates",
         f"use cell_size = {fit:.0f} or larger",
+    )
+
+
+def _warn_degrees(cores, cfg, log: ProblemLog) -> None:
+    """Warn when every core of a projected project sits where degrees would.
+
+    Longitudes and latitudes given under a projected CRS map a basin a few hundred
+    metres wide near the CRS origin: the build runs, the map is nonsense.
+    """
+    e = np.array([c.easting for c in cores], dtype=float)
+    n = np.array([c.northing for c in cores], dtype=float)
+    if not len(e) or np.any(np.abs(e) > 180.0) or np.any(np.abs(n) > 90.0):
+        return
+    log.warn(
+        cfg.cores,
+        cores[0].line or 1,
+        "x",
+        (float(e[0]), float(n[0])),
+        f"every core lies within ±180 and ±90, like longitudes and latitudes, but the project "
+        f"CRS {cfg.crs.name!r} is projected (metres)",
+        "if the coordinates are degrees, give their geographic CRS (e.g. EPSG:4326)",
+    )
+
+
+MIN_GRID_SIDE_CELLS = 3
+"""Fewest cells along each side of a grid: fewer cannot show a belt boundary between cores."""
+MAX_DEFAULT_TRANSECTS = 1000
+"""Most dip transects ``transect_spacing_m`` may ask for across the mapped area."""
+
+
+def _check_small_grid(rows, cols, minx, miny, maxx, maxy, cell, shown, locate, log) -> None:
+    """Refuse a cell as large as the mapped area (one cell cannot hold a map)."""
+    if min(rows, cols) >= MIN_GRID_SIDE_CELLS:
+        return
+    fit = float(min(maxx - minx, maxy - miny)) / MIN_GRID_SIDE_CELLS
+    log.error(
+        shown,
+        locate.line_of(("grid", "cell_size")),
+        "grid.cell_size",
+        cell,
+        f"gives a grid of {rows:.0f} x {cols:.0f} cells over an area of "
+        f"{maxx - minx:.4g} x {maxy - miny:.4g} m, fewer than {MIN_GRID_SIDE_CELLS} a side",
+        f"use cell_size = {fit:.4g} or smaller, or a larger margin or area",
+    )
+
+
+def _check_transect_spacing(minx, miny, maxx, maxy, migration, shown, locate, log) -> None:
+    """Refuse a transect spacing that would draw more transects than anyone could read."""
+    spacing = None if migration is None else migration.transect_spacing_m
+    if spacing is None or migration.transects is not None:
+        return
+    span = float(np.hypot(maxx - minx, maxy - miny))
+    with np.errstate(over="ignore", divide="ignore"):
+        count = span / spacing
+    if np.isfinite(count) and count <= MAX_DEFAULT_TRANSECTS:
+        return
+    log.error(
+        shown,
+        locate.line_of(("migration", "transect_spacing_m")),
+        "migration.transect_spacing_m",
+        spacing,
+        f"gives {_count(count)} transects across the {span:.4g} m wide mapped area, more than "
+        f"the {MAX_DEFAULT_TRANSECTS:,} paleomap draws",
+        f"use transect_spacing_m = {span / MAX_DEFAULT_TRANSECTS:.4g} or larger",
     )
 
 

@@ -10,13 +10,14 @@ nothing here decides where a build ends up.
 from __future__ import annotations
 
 import logging
-import re
 from pathlib import Path
 from typing import TYPE_CHECKING
 
 import numpy as np
 
 from .atomic import atomic_write_text
+from .csvcells import csv_text
+from .filenames import safe_name
 from .geopackage import write_layers
 from .geotiff import reproject_grid, write_class_raster, write_float_raster
 from .qml import to_qml
@@ -35,21 +36,13 @@ GPKG_NAME = "paleomap.gpkg"
 PAIR_TIME_COLUMNS = ("slider_start", "slider_end")
 
 
-def safe_name(name: str) -> str:
-    """A slice name made safe for a file name.
-
-    >>> safe_name("MFS 2 / upper")
-    'MFS_2_upper'
-    """
-    s = re.sub(r"[^A-Za-z0-9._-]+", "_", str(name)).strip("_")
-    return s or "slice"
-
-
 def raster_names(slice_name: str) -> dict[str, str]:
     """File names (inside ``rasters/``) of one slice's belt and distal-probability rasters.
 
-    >>> raster_names("KS3")["belt"]
-    'belt_KS3.tif'
+    >>> raster_names("ks3")["belt"]
+    'belt_ks3.tif'
+    >>> raster_names("KS3")["belt"]  # a capital or any changed character adds a hash
+    'belt_KS3-3c04ed96.tif'
     """
     s = safe_name(slice_name)
     return {"belt": f"belt_{s}.tif", "distal": f"distal_probability_{s}.tif"}
@@ -58,8 +51,8 @@ def raster_names(slice_name: str) -> dict[str, str]:
 def probability_name(slice_name: str, belt_id: str) -> str:
     """File name (inside ``rasters/``) of one belt's probability raster at one slice.
 
-    >>> probability_name("KS3", "fine_sand")
-    'probability_fine_sand_KS3.tif'
+    >>> probability_name("ks3", "fine_sand")
+    'probability_fine_sand_ks3.tif'
     """
     return f"probability_{safe_name(belt_id)}_{safe_name(slice_name)}.tif"
 
@@ -93,7 +86,7 @@ def write_deliverables(result: BuildResult, folder: Path) -> None:
     )
     _write_rasters(result, folder / "rasters")
     shifts = layers["shoreline_shifts"].drop(columns=["geometry", *PAIR_TIME_COLUMNS])
-    atomic_write_text(folder / "rates.csv", shifts.to_csv(index=False, float_format="%.6g"))
+    atomic_write_text(folder / "rates.csv", csv_text(shifts, float_format="%.6g"))
 
 
 def _write_rasters(result: BuildResult, folder: Path) -> None:
