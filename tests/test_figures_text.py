@@ -19,8 +19,8 @@ from paleomap.figures import all as figures_all
 from paleomap.figures.corepanel import column_positions, core_panel, panel_cores
 from paleomap.figures.labels import ELLIPSIS
 from paleomap.figures.positions import position_panel, series_rate, shoreline_positions
-from paleomap.figures.wheeler import chart_transect
 from paleomap.pipeline import compute
+from paleomap.results import chart_transect
 
 N_SLICES = 30
 N_BELTS = 12
@@ -269,7 +269,7 @@ def test_column_positions_follow_distance_with_room_for_each_column():
 def test_an_oscillating_series_gets_its_net_rate_not_a_least_squares_line(stress):
     from paleomap.migration import one_directional
 
-    tr = chart_transect(stress).transect
+    tr = chart_transect(stress.transects).transect
     p = stress.positions[stress.positions["transect"] == tr]
     assert not one_directional(p["age"], p["position_m"])  # the swing goes back and forth
     rate, method = series_rate(stress, tr)
@@ -283,7 +283,7 @@ def test_an_oscillating_series_gets_its_net_rate_not_a_least_squares_line(stress
 
 
 def test_position_panel_has_a_key_and_labels_every_step_it_can(stress):
-    tr = chart_transect(stress).transect
+    tr = chart_transect(stress.transects).transect
     ax = position_panel(stress, tr)
     legend = ax.get_legend()
     labels = [t.get_text() for t in legend.get_texts()]
