@@ -4,9 +4,12 @@ Run from the repository root (not part of the test suite)::
 
     python benchmarks/run.py --quick                  # about 200 cores, under 2 minutes
     python benchmarks/run.py                          # small, medium, large + comparison
-    python benchmarks/run.py --sizes small,medium --no-compare
+    python benchmarks/run.py --sizes small,medium --compare none
+    python benchmarks/run.py --engines shared_relief,space_time   # engines side by side
 
-Each size is a synthetic project made by paleomap's forward model
+Every size is built with each engine of ``--engines`` (default: the default engine and
+``space_time``), side by side in one run. Each size is a synthetic project made by
+paleomap's forward model
 (:func:`paleomap.synthetic.make_basin`) and written to a temporary folder (not timed).
 The build then runs in a fresh Python process, so its wall time is the whole process
 (imports included) and its peak memory is that process's own. Per stage, the table
@@ -84,6 +87,16 @@ def _make_project(size: str, folder: Path, seed: int) -> Path:
         truth_cell_m=max(cell, 100.0),
     )
     return write_project(basin, folder / size, overwrite=True)
+
+
+def _with_engine(project: str, engine: str) -> str:
+    """A copy of the project file beside it that selects ``engine``."""
+    path = Path(project)
+    copy = path.with_name(f"project-{engine}.toml")
+    copy.write_text(
+        path.read_text(encoding="utf-8") + f'\n[mapping]\nengine = "{engine}"\n', encoding="utf-8"
+    )
+    return str(copy)
 
 
 # ------------------------------------------------------------------ the build
@@ -368,6 +381,11 @@ def main(argv: list[str] | None = None) -> int:
         default=0.25,
         help="share of the grid's rows the large field stage is timed on",
     )
+    p.add_argument(
+        "--engines",
+        default="shared_relief,space_time",
+        help="comma-separated field engines, each size built with each",
+    )
     p.add_argument("--keep", type=Path, default=None, help="keep projects and builds here")
     p.add_argument("--_worker", nargs="+", help=argparse.SUPPRESS)
     a = p.parse_args(argv)
@@ -393,6 +411,7 @@ def main(argv: list[str] | None = None) -> int:
     if compare != "none" and compare not in sizes:
         sizes.append(compare)
     gs_slices = max(2, a.gstools_slices)
+    engines = [e.strip() for e in a.engines.split(",") if e.strip()]
 
     tmp = tempfile.TemporaryDirectory(prefix="paleomap-bench-")
     root = a.keep or Path(tmp.name)
@@ -409,51 +428,57 @@ def main(argv: list[str] | None = None) -> int:
         if size == "large" and a.large_field_only:
             _large_field(made["project"], a.band)
             continue
-        res, wall = _run_worker(
-            [
-                "--_worker",
-                "build",
-                made["project"],
-                str(root / f"{size}-build"),
-                "1" if spec["figures"] else "0",
-            ]
-        )
-        builds[size] = (made["project"], res)
-        _print_build(size, res, wall)
-        if size == "small":
-            print(f"  small, whole process (figures and report on): {wall:.2f} s")
-            bare, bare_wall = _run_worker(
-                ["--_worker", "build", made["project"], str(root / "small-bare"), "0"]
+        for engine in engines:
+            project = _with_engine(made["project"], engine)
+            res, wall = _run_worker(
+                [
+                    "--_worker",
+                    "build",
+                    project,
+                    str(root / f"{size}-{engine}-build"),
+                    "1" if spec["figures"] else "0",
+                ]
             )
-            print(
-                f"  small, whole process without figures and report: {bare_wall:.2f} s, "
-                f"peak {bare['peak_mb']:.0f} MiB "
-                f"({'within' if bare_wall < 3 else 'outside'} the 3 s target)"
-            )
-        if size == "large":
-            verdict = "within" if wall < 300 and res["peak_mb"] < 4096 else "outside"
-            print(
-                f"  large, whole process {wall:.0f} s, peak {res['peak_mb'] / 1024:.2f} GiB: "
-                f"{verdict} the 5 min / 4 GiB target"
-            )
+            builds[(size, engine)] = (project, res)
+            _print_build(f"{size}, {engine}", res, wall)
+            if size == "small":
+                print(f"  small, whole process (figures and report on): {wall:.2f} s")
+                bare, bare_wall = _run_worker(
+                    ["--_worker", "build", project, str(root / f"small-{engine}-bare"), "0"]
+                )
+                print(
+                    f"  small, whole process without figures and report: {bare_wall:.2f} s, "
+                    f"peak {bare['peak_mb']:.0f} MiB "
+                    f"({'within' if bare_wall < 3 else 'outside'} the 3 s target)"
+                )
+            if size == "large":
+                verdict = "within" if wall < 300 and res["peak_mb"] < 4096 else "outside"
+                print(
+                    f"  large, whole process {wall:.0f} s, peak {res['peak_mb'] / 1024:.2f} GiB: "
+                    f"{verdict} the 5 min / 4 GiB target"
+                )
 
     if compare != "none":
-        project, res = builds[compare]
         print(f"\n== comparison at size {compare}: the same maps scripted without paleomap")
         mapping = ("age models", "grid", "field", "belts", "shorelines", "probabilities")
-        ours = sum(dt for name, dt, _ in res["stages"] if name in mapping)
-        print(
-            f"  {'paleomap maps':<26}{ours:>9.1f} s   (age models, field, belts, shorelines, "
-            f"every belt's probability grid; "
-            f"{res['compute_s'] + res['probabilities_s']:.1f} s with the core reading)"
-        )
+        ours = {}
+        for engine in engines:
+            project, res = builds[(compare, engine)]
+            ours[engine] = sum(dt for name, dt, _ in res["stages"] if name in mapping)
+            print(
+                f"  {'paleomap, ' + engine:<26}{ours[engine]:>9.1f} s   (age models, field, "
+                f"belts, shorelines, every belt's probability grid; "
+                f"{res['compute_s'] + res['probabilities_s']:.1f} s with the core reading)"
+            )
         gs_res, _ = _run_worker(["--_worker", "gstools", project, str(gs_slices)])
         t_gs = _print_alternative("gstools ordinary kriging", gs_res)
         tps_n = a.tps_slices or res["slices"]
         tps_res, _ = _run_worker(["--_worker", "tps", project, str(max(2, tps_n))])
         t_tps = _print_alternative("thin-plate spline (scipy)", tps_res)
-        print(f"  speedup vs thin-plate spline loop: {t_tps / ours:.1f}x")
-        print(f"speedup vs scripted loop: {t_gs / ours:.1f}x")
+        for engine in engines:
+            print(f"  {engine}: speedup vs thin-plate spline loop: {t_tps / ours[engine]:.1f}x")
+        for engine in engines:
+            print(f"{engine}: speedup vs scripted loop: {t_gs / ours[engine]:.1f}x")
     tmp.cleanup()
     return 0
 

@@ -156,7 +156,7 @@ def compute(project: Project, *, settings=None) -> BuildResult:
     with sw.stage("shorelines"):
         dip = regional_dip_azimuth([m.latent for m in maps], grid) if maps else 90.0
         transects, positions = _positions(project, grid, maps, dip)
-        shifts, pairs, transects = _shifts(project, grid, maps, transects, positions, dip)
+        shifts, pairs, transects = _shifts(project, grid, maps, transects, positions, dip, fitted)
         # the main tables are the tracked boundary's; further boundaries ride beside them
         name = scheme.boundary_name(b)
         others = {
@@ -251,15 +251,16 @@ def _with_control(project: Project, records: Records) -> Records:
     pts = project.control_points
     if not pts:
         return records
-    return Records(
-        np.r_[records.core_id, np.array([f"{_CONTROL_PREFIX}{p.point_id}" for p in pts], object)],
-        np.r_[records.easting, [p.easting for p in pts]],
-        np.r_[records.northing, [p.northing for p in pts]],
-        np.r_[records.age_top, [float(p.age) for p in pts]],
-        np.r_[records.age_base, [float(p.age) for p in pts]],
-        np.r_[records.rank, [int(p.rank) for p in pts]].astype(np.int64),
-        np.r_[records.closed_top, np.ones(len(pts), bool)],
+    points = Records(
+        np.array([f"{_CONTROL_PREFIX}{p.point_id}" for p in pts], object),
+        np.array([p.easting for p in pts], float),
+        np.array([p.northing for p in pts], float),
+        np.array([float(p.age) for p in pts]),
+        np.array([float(p.age) for p in pts]),
+        np.array([int(p.rank) for p in pts], np.int64),
+        np.ones(len(pts), bool),
     )
+    return records.appended(points)
 
 
 def _map_fields(
@@ -552,8 +553,13 @@ def _edge_point(line, side: str):
     return line.coords[0] if side == "landward" else line.coords[-1]
 
 
-def _shifts(project: Project, grid: Grid, maps, transects, positions, dip: float):
-    from .migration import TransectPosition
+def _shifts(project: Project, grid: Grid, maps, transects, positions, dip: float, fitted=None):
+    """Shifts per transect and per slice pair. Where the engine gives joint draws of a
+    boundary's positions over ages (``transect_draws``), a shift whose two positions lie
+    on the transect keeps the maps' shift and takes its P10-P90 from the spread of those
+    draws (one draw, one possible history), so the range reflects how the two positions
+    move together; otherwise the two positions' P10-P90 are combined as independent."""
+    from .migration import TransectPosition, joint_shift_statistics
 
     kyr = project.kyr_per_age_unit
     tol = project.migration.stillstand_m_per_kyr
@@ -570,23 +576,39 @@ def _shifts(project: Project, grid: Grid, maps, transects, positions, dip: float
             r.position_m, r.position_low_m, r.position_high_m, r.crossings, r.outside, line.length
         )
 
+    draw = getattr(fitted, "transect_draws", None)
+    slice_ages = [m.slice.age for m in maps]
     for b in scheme.tracked_boundaries:
         bname = scheme.boundary_name(b)
+        draws = {}
+        if draw is not None:
+            step = grid.cell_size / 2
+            draws = {t.transect: draw(t.line, slice_ages, b, step) for t in transects}
+        column = {m.slice.name: i for i, m in enumerate(maps)}
         for k, (old, young) in enumerate(_ordered_pairs(maps)):
             first = len(rows)
             for tr in transects:
                 line = lines[tr.transect]
                 po = pos[(tr.transect, bname, old.slice.name)]
                 py = pos[(tr.transect, bname, young.slice.name)]
-                stats = shift_statistics(
-                    tp(po, line),
-                    tp(py, line),
+                ages_sd = (
                     old.slice.age * kyr,
                     young.slice.age * kyr,
                     sd.get(old.slice.surface or "", 0.0) * kyr,
                     sd.get(young.slice.surface or "", 0.0) * kyr,
-                    seed=k,
                 )
+                stats = shift_statistics(tp(po, line), tp(py, line), *ages_sd, seed=k)
+                if draws and not stats["shift_bound"] and np.isfinite(stats["shift_m"]):
+                    d = draws[tr.transect]
+                    joint = joint_shift_statistics(
+                        d[:, column[old.slice.name]],
+                        d[:, column[young.slice.name]],
+                        *ages_sd,
+                        centre=stats["shift_m"],
+                        seed=k,
+                    )
+                    if np.isfinite(joint["shift_m"]):
+                        stats.update(joint)
                 if stats["shift_bound"]:
                     sense = _bound_sense(stats["shift_m"])
                 else:

@@ -100,10 +100,12 @@ class MappingSettings:
         Azimuth of the major axis, degrees clockwise from north.
     nugget : float or None
         Nugget as a fraction of the sill, in [0, 1).
-    samples : int
-        Gibbs samples kept per slice.
-    burn_in : int
-        Gibbs sweeps discarded before the first kept sample.
+    samples : int or None
+        Gibbs samples kept; ``None``: the engine's own default (100 for the
+        slice engines, 200 for ``space_time``).
+    burn_in : int or None
+        Gibbs sweeps discarded before the first kept sample; ``None``: the engine's own
+        default (50 for the slice engines, 200 for ``space_time``).
     seed : int
         Random seed of the sampler.
     deterministic : bool
@@ -123,8 +125,8 @@ class MappingSettings:
     anisotropy: float | None = None
     azimuth_deg: float | None = None
     nugget: float | None = None
-    samples: int = 100
-    burn_in: int = 50
+    samples: int | None = None
+    burn_in: int | None = None
     seed: int = 0
     deterministic: bool = False
     neighbours: int | None = None

@@ -134,6 +134,9 @@ COLUMNS: dict[str, tuple[str, str]] = {
     "relief_nugget": ("Relief nugget (share of sill)", "share"),
     "slice_residual_variance": ("Per-slice residual variance (latent units\u00b2)", "fit"),
     "slice_residual_range_m": ("Per-slice residual range (m)", "fit"),
+    "smooth_share_in_own_belt": ("Cores in their belt without the local residual (share)", "share"),
+    "relief_strike_to_dip": ("Relief range along strike / along dip", "fit"),
+    "sea_level_latent": ("Basin-wide term at this age (latent units)", "fit"),
     # core reading
     "core_id": ("Core", "text"),
     "depth": ("Depth ({depth})", "depth"),

@@ -67,6 +67,52 @@ def test_per_slice_engine_through_a_whole_build(per_slice, tmp_path):
     assert (out / "paleomap.gpkg").is_file() and (out / "report.html").is_file()
 
 
+@pytest.fixture(scope="module")
+def space_time(tmp_path_factory):
+    # a synthetic basin whose shoreline crosses the area at every slice
+    from paleomap.synthetic import make_basin
+    from paleomap.synthetic import write_project as write_synthetic
+
+    basin = make_basin(n_cores=30, seed=3, cell_size_m=1000.0, truth_cell_m=2000.0)
+    folder = tmp_path_factory.mktemp("st")
+    write_synthetic(basin, folder)
+    path = folder / "project.toml"
+    path.write_text(path.read_text() + '\n[mapping]\nengine = "space_time"\nsamples = 40\nburn_in = 60\n')
+    with warnings.catch_warnings():
+        warnings.simplefilter("ignore", PaleomapWarning)
+        return compute(load_project(path))
+
+
+def test_space_time_engine_through_a_whole_build(space_time, tmp_path):
+    from paleomap.pipeline import write_build
+
+    r = space_time
+    assert r.project.mapping.engine == "space_time"
+    assert isinstance(r.field, FittedField)
+    for m in r.slice_maps:
+        assert m.quality["method"] == "space_time"
+        assert m.quality["cores_in_own_belt"] == m.quality["cores_used"]
+        np.testing.assert_allclose(m.probabilities.sum(axis=0), 1.0, atol=1e-5)
+    # one model: the chart meets the maps at the slices
+    c = r.chart
+    pos = r.positions[r.positions["transect"] == c.transect]
+    for row in pos.itertuples():
+        j = np.flatnonzero(c.ages == row.age)[0]
+        if np.isfinite(row.position_m):
+            assert abs(c.boundary_m[j] - row.position_m) <= r.grid.cell_size
+    # shifts from joint draws: the sense always agrees with the rate and its range
+    s = r.shifts[r.shifts["shift_bound"] == ""].dropna(subset=["rate_m_per_kyr"])
+    assert len(s)
+    for row in s.itertuples():
+        assert row.shift_low_m <= row.shift_m <= row.shift_high_m
+        if row.sense == "transgression":
+            assert row.shift_low_m > 0 and row.rate_m_per_kyr > 0
+        elif row.sense == "regression":
+            assert row.shift_high_m < 0 and row.rate_m_per_kyr < 0
+    out = write_build(r, tmp_path / "build")
+    assert (out / "paleomap.gpkg").is_file() and (out / "report.html").is_file()
+
+
 def test_predict_at_fitted_ages_is_the_slice_map_and_works_between_them(per_slice):
     r = per_slice
     m = r.slice_maps[0]

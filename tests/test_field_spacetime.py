@@ -1,11 +1,10 @@
 """The space-time field on small synthetic truths with a known answer."""
 
 import numpy as np
-import pandas as pd
 import pytest
 
-from paleomap.field.records import RECORD_COLUMNS
 from paleomap.field.spacetime import SpaceTimeField, SpaceTimeSettings
+from paleomap.records import Records
 
 AGES = np.arange(0.0, 120.0, 0.5)
 
@@ -18,10 +17,19 @@ def _records(e, n, latent, cuts, ages=AGES):
         r = np.digitize(latent(e[i], n[i], ages), cuts)
         edges = np.flatnonzero(np.diff(r)) + 1
         for a, b in zip(np.r_[0, edges], np.r_[edges, ages.size], strict=True):
-            rows.append(
-                (f"C{i:02d}", e[i], n[i], ages[a], ages[b - 1] + step, 0.0, 0.0, r[a], r[a], False)
-            )
-    return pd.DataFrame(rows, columns=RECORD_COLUMNS)
+            rows.append((f"C{i:02d}", e[i], n[i], ages[a], ages[b - 1] + step, r[a]))
+    return _as_records(rows)
+
+
+def _as_records(rows):
+    """Records of (core_id, easting, northing, age_top, age_base, rank) rows."""
+    cols = list(zip(*rows, strict=True))
+    return Records(
+        np.array(cols[0], object),
+        *(np.array(v, float) for v in cols[1:5]),
+        np.array(cols[5], np.int64),
+        np.zeros(len(rows), bool),
+    )
 
 
 def _sea(a):
@@ -62,13 +70,13 @@ def test_recovers_sea_level_and_thresholds(ramp_fit):
 
 def test_core_belts_honoured_at_their_positions(ramp_fit):
     st, rec, *_ = ramp_fit
-    mid = (rec["age_top"] + rec["age_base"]).to_numpy() / 2
+    mid = (rec.age_top + rec.age_base) / 2
     ok = []
     for a in np.unique(np.round(mid[::7], 1))[:12]:
-        at = rec[(rec["age_top"] <= a) & (rec["age_base"] > a)]
-        p = st.predict(at["easting"], at["northing"], [a])
+        at = (rec.age_top <= a) & (rec.age_base > a)
+        p = st.predict(rec.easting[at], rec.northing[at], [a])
         belt = np.searchsorted(st.thresholds_, p.mean[0], side="right")
-        ok.append(belt == at["rank_low"].to_numpy())
+        ok.append(belt == rec.rank[at])
     assert np.concatenate(ok).mean() >= 0.97
 
 
@@ -117,10 +125,10 @@ def test_isolated_core_belt_stretches_along_strike():
 
 
 def test_records_validated():
-    rec = pd.DataFrame([("A", 0.0, 0.0, 0.0, 10.0, 0.0, 0.0, 3, 3, False)], columns=RECORD_COLUMNS)
+    rec = _as_records([("A", 0.0, 0.0, 0.0, 10.0, 3)])
     with pytest.raises(ValueError, match="rank"):
         SpaceTimeField().fit(rec, 3)
-    with pytest.raises(ValueError, match="columns"):
-        SpaceTimeField().fit(rec.drop(columns="censored"), 4)
+    with pytest.raises(ValueError, match="no record"):
+        SpaceTimeField().fit(_as_records([("A", 0.0, 0.0, 10.0, 0.0, 1)]), 3)
     with pytest.raises(ValueError, match="anisotropy"):
         SpaceTimeSettings(anisotropy=0.0)

@@ -18,6 +18,13 @@ The interface
   :class:`Prediction` at any points and ages, and whose :meth:`~FittedField.quality`
   gives the engine's scores at each slice age (columns of ``slice_quality``).
 
+Optionally, a fitted model over the whole succession may offer
+``transect_draws(line, ages, boundary, step_m)``: joint draws, (draws, ages), of a
+boundary's position along a transect at several ages. The build then takes each shift
+between two slices, its P10-P90 and its rate from those draws (one draw, one possible
+history), so the sense never contradicts the rate; without it the two slices' position
+ranges are combined as independent.
+
 Adding an engine: write one module with a class that has ``name``, ``settings`` and
 ``fit`` (a :class:`FieldEngine`) and a fitted model with ``predict`` and ``quality``
 (a :class:`FittedField`), and add one line to :data:`ENGINES`. The project then
@@ -29,7 +36,7 @@ project stay light; the engine's module is imported when a build asks for it.
 Examples
 --------
 >>> sorted(ENGINES)
-['per_slice', 'shared_relief']
+['per_slice', 'shared_relief', 'space_time']
 >>> get_engine("per_slice").name
 'per_slice'
 """
@@ -61,6 +68,7 @@ __all__ = [
 ENGINES: dict[str, str] = {
     "shared_relief": "paleomap.field.shared:SharedReliefEngine",
     "per_slice": "paleomap.field.ordinal:PerSliceEngine",
+    "space_time": "paleomap.field.spacetime:SpaceTimeEngine",
 }
 """Engine name -> ``"module:class"`` of its :class:`FieldEngine`."""
 

@@ -985,8 +985,8 @@ class PerSliceEngine:
 
         kwargs = dict(
             covariance=covariance_overrides(mapping),
-            samples=mapping.samples,
-            burn_in=mapping.burn_in,
+            samples=100 if mapping.samples is None else mapping.samples,
+            burn_in=50 if mapping.burn_in is None else mapping.burn_in,
             seed=mapping.seed,
             deterministic=mapping.deterministic,
         )

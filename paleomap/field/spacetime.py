@@ -23,7 +23,7 @@ Belts are cut from ``Y`` at thresholds ``0 = t_1 < t_2 < ... < t_{K-1}`` that ar
 integrated out, Cowles 1996), not fixed from Gaussian proportions: how far belts move
 between ages for a given change in sea level fixes how far apart the thresholds lie.
 
-Observations. Every dated span (:mod:`paleomap.field.records`) gives observation
+Observations. Every dated record (:class:`paleomap.records.Records`) gives observation
 points spread over its age range, about ``age_steps`` over the whole time span (and
 at least one per span); each point says ``Y`` at the core and that age lies in the
 span's belt interval. A censored span (the gap below an erosional surface) says ``Y``
@@ -52,7 +52,7 @@ Examples
 A ramp dipping east with a sea level that rises and falls, three belts, cores logged
 every 10 kyr:
 
->>> import pandas as pd
+>>> from paleomap.records import Records
 >>> rng = np.random.default_rng(1)
 >>> e, n = rng.uniform(0, 20_000, 30), rng.uniform(0, 20_000, 30)
 >>> sea = lambda a: 1.5 * np.sin(a / 30.0)
@@ -60,9 +60,10 @@ every 10 kyr:
 >>> for i in range(30):
 ...     for a0 in range(0, 100, 10):
 ...         y = e[i] / 5000 - 2.0 + sea(a0 + 5.0)
-...         rank = int(np.digitize(y, [0.0, 1.5]))
-...         rows.append((f"C{i}", e[i], n[i], a0, a0 + 10.0, 0.0, 0.0, rank, rank, False))
->>> records = pd.DataFrame(rows, columns=RECORD_COLUMNS)
+...         rows.append((f"C{i}", e[i], n[i], a0, a0 + 10.0, int(np.digitize(y, [0.0, 1.5]))))
+>>> c = list(zip(*rows))
+>>> records = Records(np.array(c[0], object), *(np.array(v) for v in c[1:]),
+...                   np.zeros(len(rows), bool))
 >>> st = SpaceTimeField(SpaceTimeSettings(samples=40, burn_in=60)).fit(records, 3)
 >>> p = st.predict(e, n, [45.0])
 >>> p.mean.shape
@@ -80,18 +81,31 @@ import pandas as pd
 from scipy import linalg, sparse, special
 from scipy.spatial import cKDTree, distance
 
-from ..grid import mean_core_spacing
-from .records import RECORD_COLUMNS
+from ..spacing import mean_core_spacing
 from .truncgauss import proportions_of, thresholds, truncated_normal, truncated_normal_mean
 
 __all__ = [
-    "RECORD_COLUMNS",
+    "SpaceTimeEngine",
     "SpaceTimeField",
+    "SpaceTimeModel",
     "SpaceTimePrediction",
     "SpaceTimeSettings",
 ]
 
 log = logging.getLogger(__name__)
+
+_COLUMNS = (
+    "core_id",
+    "easting",
+    "northing",
+    "age_top",
+    "age_base",
+    "age_sd_top",
+    "age_sd_base",
+    "rank_low",
+    "rank_high",
+    "censored",
+)
 
 _RANGES = (0.5, 0.75, 1.0, 1.5, 2.0, 3.0, 4.5, 7.0)  # relief range candidates, core spacings
 # anisotropy candidates: strike-to-dip range ratio (below 1: longer along dip)
@@ -244,9 +258,9 @@ def _frame(azimuth_deg, ratio):
 class SpaceTimeField:
     """The space-time ordinal field (see the module's description).
 
-    Configure with :class:`SpaceTimeSettings`, :meth:`fit` to a records table
-    (:data:`RECORD_COLUMNS`), then :meth:`predict` the latent at any positions and
-    ages or :meth:`sample_latent` joint draws of its smooth part.
+    Configure with :class:`SpaceTimeSettings`, :meth:`fit` to the cores' records
+    (:class:`paleomap.records.Records`), then :meth:`predict` the latent at any
+    positions and ages or :meth:`sample_latent` joint draws of its smooth part.
 
     Attributes (after fit)
     ----------------------
@@ -267,13 +281,15 @@ class SpaceTimeField:
 
     # ------------------------------------------------------------------ fitting
 
-    def fit(self, records: pd.DataFrame, n_belts: int) -> SpaceTimeField:
-        """Fit the field to every core's dated spans.
+    def fit(self, records, n_belts: int) -> SpaceTimeField:
+        """Fit the field to every core's dated records.
 
         Parameters
         ----------
-        records : pandas.DataFrame
-            Columns :data:`RECORD_COLUMNS` (:func:`paleomap.field.records.core_records`).
+        records : paleomap.records.Records
+            Every core's dated records, with their end ages' uncertainty and the
+            censored records below erosional surfaces
+            (:func:`paleomap.records.build_records`).
         n_belts : int
             Belts of the scheme (ranks 0..n_belts-1).
 
@@ -283,7 +299,7 @@ class SpaceTimeField:
             ``self``, fitted.
         """
         st = self.settings
-        rec = self._validate(records, n_belts)
+        rec = self._validate(_table(records), n_belts)
         self.n_belts_ = n_belts
         ids, core_of = np.unique(rec["core_id"].to_numpy(object).astype(str), return_inverse=True)
         first = np.unique(core_of, return_index=True)[1]
@@ -475,9 +491,6 @@ class SpaceTimeField:
 
     @staticmethod
     def _validate(records, n_belts):
-        missing = [c for c in RECORD_COLUMNS if c not in records.columns]
-        if missing:
-            raise ValueError(f"records lack the columns {missing}")
         # a point record (a pick: age_top == age_base) dates its belt exactly
         rec = records.loc[records["age_base"] >= records["age_top"]].reset_index(drop=True)
         if rec.empty:
@@ -823,33 +836,115 @@ class SpaceTimeField:
         return np.where(crossing, pos, np.nan)
 
 
-def records_table(records, gaps=None) -> pd.DataFrame:
-    """A :data:`RECORD_COLUMNS` table from :class:`paleomap.records.Records` (its
-    optional ``age_sd_top``/``age_sd_base`` and censored ``gaps`` included).
-
-    Examples
-    --------
-    >>> from paleomap.records import Records  # doctest: +SKIP
-    """
-    n = len(records)
-    zeros = np.zeros(n)
-    sd_top = getattr(records, "age_sd_top", None)
-    sd_base = getattr(records, "age_sd_base", None)
-    table = pd.DataFrame(
+def _table(records) -> pd.DataFrame:
+    """The records (:class:`paleomap.records.Records`) as a table of :data:`_COLUMNS`."""
+    return pd.DataFrame(
         dict(
             core_id=np.asarray(records.core_id, dtype=object),
             easting=np.asarray(records.easting, dtype=float),
             northing=np.asarray(records.northing, dtype=float),
             age_top=np.asarray(records.age_top, dtype=float),
             age_base=np.asarray(records.age_base, dtype=float),
-            age_sd_top=zeros if sd_top is None else np.asarray(sd_top, dtype=float),
-            age_sd_base=zeros if sd_base is None else np.asarray(sd_base, dtype=float),
+            age_sd_top=np.asarray(records.age_sd_top, dtype=float),
+            age_sd_base=np.asarray(records.age_sd_base, dtype=float),
             rank_low=np.asarray(records.rank, dtype=np.int64),
-            rank_high=np.asarray(records.rank, dtype=np.int64),
-            censored=np.zeros(n, dtype=bool),
+            rank_high=np.asarray(records.rank_high, dtype=np.int64),
+            censored=np.asarray(records.censored, dtype=bool),
         )
     )
-    gaps = getattr(records, "gaps", None) if gaps is None else gaps
-    if gaps is not None and len(gaps):
-        table = pd.concat([table, pd.DataFrame(gaps)[list(RECORD_COLUMNS)]], ignore_index=True)
-    return table
+
+
+class SpaceTimeEngine:
+    """The field engine over position and age, ``[mapping] engine = "space_time"``:
+    one latent fitted to every core's whole record (see the module notes).
+
+    Examples
+    --------
+    >>> from paleomap.field.engine import FieldEngine
+    >>> isinstance(SpaceTimeEngine(), FieldEngine)
+    True
+    >>> from paleomap.project import MappingSettings
+    >>> SpaceTimeEngine().settings(MappingSettings(samples=50, seed=3)).samples
+    50
+    """
+
+    name = "space_time"
+
+    def settings(self, mapping) -> SpaceTimeSettings:
+        """Settings from the project's ``[mapping]`` table (``samples``, ``burn_in`` and
+        ``seed``; the covariance keys are the slice engines' and are not used here)."""
+        given = dict(samples=mapping.samples, burn_in=mapping.burn_in, seed=mapping.seed)
+        return SpaceTimeSettings(**{k: v for k, v in given.items() if v is not None})
+
+    def fit(self, records, n_belts: int, settings: SpaceTimeSettings, ages) -> SpaceTimeModel:
+        """Fit to every record of every core (the slice ages only label the scores)."""
+        field = SpaceTimeField(settings).fit(records, n_belts)
+        return SpaceTimeModel(field, records, np.asarray(ages, dtype=float).ravel())
+
+
+class SpaceTimeModel:
+    """The fitted space-time field as a :class:`paleomap.field.engine.FittedField`.
+
+    Slice maps, maps at any other age and the chronostratigraphic chart all come from
+    :meth:`predict` of the one fitted field; :meth:`transect_draws` gives joint draws of
+    a boundary's positions at several ages, from which the build takes the shifts and
+    rates between slices.
+    """
+
+    LARGE = 20_000_000
+    """Above this many point-ages the prediction is float32."""
+
+    def __init__(self, field: SpaceTimeField, records, ages: np.ndarray):
+        self.field, self.records, self.ages = field, records, ages
+
+    def predict(self, easting, northing, ages):
+        """The latent's mean and sd and the belt probabilities (derived from them) at
+        points and ages."""
+        from .engine import Prediction
+
+        e = np.asarray(easting, dtype=float).ravel()
+        ages = np.atleast_1d(np.asarray(ages, dtype=float))
+        dtype = np.float32 if e.size * ages.size > self.LARGE else np.float64
+        p = self.field.predict(e, northing, ages, dtype=dtype)
+        t = np.asarray(p.thresholds, dtype=float)
+        return Prediction(
+            ages,
+            tuple(p.mean[i] for i in range(ages.size)),
+            tuple(p.sd[i] for i in range(ages.size)),
+            tuple(t for _ in range(ages.size)),
+            tuple(None for _ in range(ages.size)),
+        )
+
+    def transect_draws(self, line, ages, boundary: int, step_m: float) -> np.ndarray:
+        """(draws, ages) joint draws of ``boundary``'s position along ``line``
+        (:meth:`SpaceTimeField.transect_draws`)."""
+        return self.field.transect_draws(line, ages, boundary, step_m)
+
+    def quality(self, age: float) -> dict:
+        """The fitted relief and time terms at ``age``, and how many of the cores
+        recording it the smooth part alone (relief, sea level and tilt, without the
+        local residual) puts in their own belt."""
+        f = self.field
+        idx = self.records.spanning(float(age))
+        share = np.nan
+        if idx.size:
+            e, n = self.records.easting[idx], self.records.northing[idx]
+            g = f._time_terms(float(age)).mean(axis=0)
+            knots, wts = f._lattice.weights(e, n)
+            smooth = (
+                (f._r_mean[knots] * wts).sum(-1)
+                + g[0]
+                + g[1] * (e - f.centre_[0]) / f.scale_
+                + g[2] * (n - f.centre_[1]) / f.scale_
+            )
+            belt = np.searchsorted(f.thresholds_, smooth, side="right")
+            share = float(np.mean(belt == self.records.rank[idx]))
+        return dict(
+            method=SpaceTimeEngine.name,
+            smooth_share_in_own_belt=share,
+            relief_sill=float(f.relief_["sill"]),
+            relief_range_m=float(f.relief_["range_m"]),
+            relief_strike_to_dip=float(f.relief_["anisotropy"]),
+            relief_azimuth_deg=float(f.relief_["azimuth_deg"]),
+            sea_level_latent=float(f._time_terms(float(age)).mean(axis=0)[0]),
+        )
