@@ -58,7 +58,7 @@ SIZES: dict[str, dict] = {
 """Benchmark projects: cores, surfaces (one slice each) and grid cells along a side."""
 
 _REGION_M = 40_000.0
-_STAGES = ("load", "age models", "grid", "field", "belts", "shorelines", "core reading")
+_STAGES = ("load", "age models", "grid", "field", "belts", "shorelines", "chart", "core reading")
 
 
 def _maxrss_mb() -> float:

@@ -116,6 +116,10 @@ class Records:
         """These records followed by ``other``'s (every column)."""
         return Records(*(np.r_[getattr(self, f), getattr(other, f)] for f in _FIELDS))
 
+    def select(self, keep: np.ndarray) -> Records:
+        """The records where the boolean mask ``keep`` is true (every column)."""
+        return Records(*(getattr(self, f)[keep] for f in _FIELDS))
+
     def spanning(self, age: float) -> np.ndarray:
         """Indices of the records read at ``age``: at most one per core, in core order.
 

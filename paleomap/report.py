@@ -137,6 +137,7 @@ COLUMNS: dict[str, tuple[str, str]] = {
     "smooth_share_in_own_belt": ("Cores in their belt without the local residual (share)", "share"),
     "relief_strike_to_dip": ("Relief range along strike / along dip", "fit"),
     "sea_level_latent": ("Basin-wide term at this age (latent units)", "fit"),
+    "sd_scale": ("Predictive sd scale from held-out cores", "fit"),
     # core reading
     "core_id": ("Core", "text"),
     "depth": ("Depth ({depth})", "depth"),

@@ -132,3 +132,14 @@ def test_records_validated():
         SpaceTimeField().fit(_as_records([("A", 0.0, 0.0, 10.0, 0.0, 1)]), 3)
     with pytest.raises(ValueError, match="anisotropy"):
         SpaceTimeSettings(anisotropy=0.0)
+
+
+def test_held_out_calibration_scales_the_sd_and_leaves_the_mean(ramp_fit):
+    st, rec, e, n = ramp_fit
+    settings = SpaceTimeSettings(samples=60, burn_in=150, seed=1, calibrate=False)
+    raw = SpaceTimeField(settings).fit(rec, 4)
+    assert raw.sd_scale_ == 1.0
+    assert 0.5 <= st.sd_scale_ <= 6.0
+    a, b = st.predict(e, n, [30.0, 70.0]), raw.predict(e, n, [30.0, 70.0])
+    np.testing.assert_allclose(a.mean, b.mean, rtol=0, atol=1e-9)
+    np.testing.assert_allclose(a.sd, st.sd_scale_ * b.sd, rtol=1e-9)

@@ -144,6 +144,9 @@ class SpaceTimeSettings:
     estimate_thresholds : bool
         Estimate the thresholds with the field (default) or keep them at the pooled
         Gaussian proportions.
+    calibrate : bool
+        Scale the predictive standard deviation so that it fits held-out cores
+        (:meth:`SpaceTimeField.fit`); without it the scale is 1.
     """
 
     samples: int = 200
@@ -159,6 +162,7 @@ class SpaceTimeSettings:
     local_range: float = 1.0
     local_anisotropy: float = 1.0
     estimate_thresholds: bool = True
+    calibrate: bool = True
 
     def __post_init__(self) -> None:
         if self.samples < 1 or self.thin < 1 or self.burn_in < 0:
@@ -473,7 +477,10 @@ class SpaceTimeField:
         self.sea_level_ = (self.age_knots_, self.theta_samples_[:, :M].mean(axis=0))
         # the local residual: stretched along strike by local_anisotropy
         self._frame = _frame(hyper["azimuth"], st.local_anisotropy)
+        self.sd_scale_ = 1.0
         self._prepare_prediction()
+        if st.calibrate:
+            self.sd_scale_ = self._calibration(records, n_belts)
         log.info(
             "space-time field: %d cores, %d spans, %d points, %d knots; thresholds %s; "
             "relief sill %.3g range %.0f m anisotropy %.1f strike %.0f°",
@@ -516,11 +523,23 @@ class SpaceTimeField:
 
     @staticmethod
     def _normal_equations(cols, vals, u, size):
-        """Phi' Phi and Phi' u of the sparse time basis, by accumulation."""
-        pair = (cols[:, :, None] * size + cols[:, None, :]).ravel()
-        prod = (vals[:, :, None] * vals[:, None, :]).ravel()
-        PtP = np.bincount(pair, weights=prod, minlength=size * size).reshape(size, size)
-        Ptu = np.bincount(cols.ravel(), weights=(vals * u[:, None]).ravel(), minlength=size)
+        """Phi' Phi and Phi' u of the sparse time basis (:meth:`_time_basis`: a point's
+        six columns are its age interval's index plus six fixed offsets), summed per
+        interval with one ``bincount`` per product of two columns."""
+        i = cols[:, 0]
+        off = cols[0] - cols[0, 0] if len(cols) else np.zeros(6, np.int64)
+        bins = int(i.max()) + 1 if i.size else 0
+        at = np.arange(bins)
+        PtP = np.zeros((size, size))
+        for a in range(6):
+            for b in range(a, 6):
+                sums = np.bincount(i, weights=vals[:, a] * vals[:, b], minlength=bins)
+                np.add.at(PtP, (at + off[a], at + off[b]), sums)
+                if b != a:
+                    np.add.at(PtP, (at + off[b], at + off[a]), sums)
+        Ptu = np.zeros(size)
+        for a in range(6):
+            np.add.at(Ptu, at + off[a], np.bincount(i, weights=vals[:, a] * u, minlength=bins))
         return PtP, Ptu
 
     @staticmethod
@@ -618,6 +637,72 @@ class SpaceTimeField:
             ),
         )
         return best[1]
+
+    _HELD_OUT = 0.2  # share of the cores held out to calibrate the predictive sd
+    _SCALES = np.geomspace(0.5, 6.0, 49)
+
+    def _calibration(self, records, n_belts: int) -> float:
+        """The factor on the predictive sd that best predicts held-out cores.
+
+        A spread fifth of the cores (at least three, and only with ten or more) is held
+        out; the field is fitted again to the rest with the relief's range and
+        anisotropy held and a shorter chain, and predicts the latent at the held-out
+        cores at the middle age of each of their records. The factor ``c`` maximises
+        the held-out records' log probability of their own belt under ``N(mean,
+        (c sd)^2)``, on a grid from 0.5 to 6 (cross-validated likelihood, a proper
+        score: common practice for calibrating a predictive spread). Returns 1 where
+        there are too few cores.
+        """
+        st = self.settings
+        ids = np.asarray(self.core_ids_)
+        n_out = int(round(self._HELD_OUT * ids.size))
+        if ids.size < 10 or n_out < 3:
+            return 1.0
+        # spread: every k-th core in order of a random key from the seed
+        rng = np.random.default_rng(st.seed + 7919)
+        order = np.argsort(rng.random(ids.size))
+        out = set(ids[order[:: max(ids.size // n_out, 2)][:n_out]].tolist())
+        held = np.array([str(c) in out for c in records.core_id], dtype=bool)
+        test = held & ~records.censored & (records.age_base > records.age_top)
+        if test.sum() < 5:
+            return 1.0
+        sub = SpaceTimeField(
+            SpaceTimeSettings(
+                samples=max(40, st.samples // 4),
+                burn_in=max(60, st.burn_in // 2),
+                thin=1,
+                seed=st.seed + 1,
+                age_steps=st.age_steps,
+                time_knots=st.time_knots,
+                knots_per_spacing=st.knots_per_spacing,
+                max_knots=st.max_knots,
+                anisotropy=self.relief_["anisotropy"],
+                range_spacings=self.relief_["range_m"] / self.spacing_m_,
+                local_range=st.local_range,
+                local_anisotropy=st.local_anisotropy,
+                estimate_thresholds=st.estimate_thresholds,
+                calibrate=False,
+            )
+        ).fit(records.select(~held), n_belts)
+        e, n = records.easting[test], records.northing[test]
+        age = 0.5 * (records.age_top[test] + records.age_base[test])
+        mean, sd = np.empty(age.size), np.empty(age.size)
+        for a in np.unique(age):
+            k = age == a
+            p = sub.predict(e[k], n[k], [a])
+            mean[k], sd[k] = p.mean[0], p.sd[0]
+        # each boundary's own event (the latent above or below its threshold), so the
+        # boundaries near a record, whose positions the bands show, carry the score
+        t = np.asarray(sub.thresholds_, dtype=float)
+        above = records.rank[test][:, None] >= np.arange(1, t.size + 1)[None, :]
+        z = (mean[:, None] - t[None, :]) / sd[:, None]
+        scores = [
+            np.where(above, special.log_ndtr(z / c), special.log_ndtr(-z / c)).sum()
+            for c in self._SCALES
+        ]
+        c = float(self._SCALES[int(np.argmax(scores))])
+        log.info("space-time field: predictive sd scaled by %.2f (held-out cores)", c)
+        return c
 
     # ------------------------------------------------------------------ prediction
 
@@ -731,7 +816,7 @@ class SpaceTimeField:
                         near[filled] = np.maximum.reduceat(vals, starts[filled])
                     v_e = 1.0 - near**2
                 mean[ai, sl] = r_at + f @ gm + loc
-                sd[ai, sl] = np.sqrt(np.maximum(var, 0.0) + v_e)
+                sd[ai, sl] = self.sd_scale_ * np.sqrt(np.maximum(var, 0.0) + v_e)
         return SpaceTimePrediction(mean, sd, self.thresholds_.copy())
 
     def _local_cross(self, pe, pn):
@@ -947,4 +1032,5 @@ class SpaceTimeModel:
             relief_strike_to_dip=float(f.relief_["anisotropy"]),
             relief_azimuth_deg=float(f.relief_["azimuth_deg"]),
             sea_level_latent=float(f._time_terms(float(age)).mean(axis=0)[0]),
+            sd_scale=float(f.sd_scale_),
         )
