@@ -143,3 +143,17 @@ def test_held_out_calibration_scales_the_sd_and_leaves_the_mean(ramp_fit):
     a, b = st.predict(e, n, [30.0, 70.0]), raw.predict(e, n, [30.0, 70.0])
     np.testing.assert_allclose(a.mean, b.mean, rtol=0, atol=1e-9)
     np.testing.assert_allclose(a.sd, st.sd_scale_ * b.sd, rtol=1e-9)
+
+
+def test_draws_with_the_residual_spread_as_the_predictive_sd(ramp_fit):
+    # Rates come from these draws: their spread at one age must be the map's own
+    # predictive sd (the mean part averages to the map; the local residual is drawn
+    # from its law given the cores; both scaled by the held-out calibration).
+    st, _, e, n = ramp_fit
+    pe, pn = (e[:6] + e[6:12]) / 2, (n[:6] + n[6:12]) / 2  # between cores
+    draws = st.sample_latent(pe, pn, [30.0, 70.0], residual=True, seed=3)
+    p = st.predict(pe, pn, [30.0, 70.0])
+    assert draws.shape == (60, 2, 6)
+    np.testing.assert_allclose(draws.mean(axis=0), p.mean, atol=0.5 * p.sd.max())
+    ratio = draws.std(axis=0) / p.sd
+    assert 0.65 < np.median(ratio) < 1.35, ratio

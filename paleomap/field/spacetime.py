@@ -836,25 +836,36 @@ class SpaceTimeField:
         M.data = np.minimum(M.data, 1.0)
         return M
 
+    def _core_solver(self, active: np.ndarray):
+        """Sparse LU of the local residual's correlation between the ``active`` cores
+        (spherical, compact support; the diagonal with a 1e-6 jitter)."""
+        tree = cKDTree(self._core_tree.data[active])
+        D = tree.sparse_distance_matrix(tree, 1.0, output_type="coo_matrix")
+        # off-diagonal entries only where distance > 0 (the diagonal comes from identity)
+        C = sparse.csc_matrix((_spherical(D.data), (D.row, D.col)), shape=(active.size,) * 2)
+        C = C + sparse.identity(active.size, format="csc") * (1.0 + 1e-6)
+        return sparse.linalg.splu(C.tocsc())
+
     def _local_dual(self, res):
         """Dual kriging weights of the local residual on the cores with a value."""
         active = np.flatnonzero(np.isfinite(res))
         if active.size == 0:
             return None, active
-        pts = self._core_tree.data[active]
-        tree = cKDTree(pts)
-        D = tree.sparse_distance_matrix(tree, 1.0, output_type="coo_matrix")
-        C = sparse.csc_matrix((_spherical(D.data), (D.row, D.col)), shape=(active.size,) * 2)
-        C = C + sparse.identity(active.size, format="csc") * (1.0 + 1e-6)
-        # off-diagonal entries only where distance > 0 (the diagonal came from identity)
-        sol = sparse.linalg.splu(C.tocsc()).solve(res[active])
+        sol = self._core_solver(active).solve(res[active])
         dual = np.zeros(len(self.core_ids_))
         dual[active] = sol
         return dual, active
 
-    def sample_latent(self, easting, northing, ages, draws: int | None = None):
-        """Joint draws of the latent's smooth part (relief + sea level + tilt) plus the
-        local residual's mean: (draws, ages, points).
+    def sample_latent(
+        self, easting, northing, ages, draws: int | None = None, *, residual: bool = False, seed=0
+    ):
+        """Joint draws of the latent at points and ages: (draws, ages, points).
+
+        Without ``residual``: the smooth part (relief + sea level + tilt) of each kept
+        sample plus the local residual's mean. With ``residual``: also a draw of the
+        local residual from its law given the cores (independent between ages, as the
+        model has it), and every draw's deviation from the mean scaled by the held-out
+        calibration factor, so the draws spread as the predictive sd says.
 
         Differences between ages of one draw are what rates between slices are
         made of, so a shift and its sense come from the same draw.
@@ -869,13 +880,34 @@ class SpaceTimeField:
         xs = (e - self.centre_[0]) / self.scale_
         ys = (n - self.centre_[1]) / self.scale_
         cross = self._local_cross(e, n)
+        rng = np.random.default_rng(seed)
         out = np.empty((pick.size, ages.size, e.size))
         for ai, a in enumerate(ages):
             g = self._time_terms(a)[pick]
-            dual, _ = self._local_dual(self._core_residuals(a))
+            res = self._core_residuals(a)
+            dual, active = self._local_dual(res)
             loc = 0.0 if dual is None else cross @ dual
             out[:, ai] = r + g[:, :1] + g[:, 1:2] * xs + g[:, 2:3] * ys + loc
+            if residual:
+                mean = out[:, ai].mean(axis=0)
+                noise = self._residual_draws(e, n, cross, active, pick.size, rng)
+                out[:, ai] = mean + self.sd_scale_ * (out[:, ai] - mean + noise)
         return out
+
+    def _residual_draws(self, e, n, cross, active, count: int, rng) -> np.ndarray:
+        """(count, points) draws of the local residual at the points given its values at
+        the ``active`` cores (spherical correlation, unit sill): the conditional law
+        ``K_pp - K_pc C^-1 K_cp``."""
+        pts = (np.column_stack([e, n]) @ self._frame.T) / self._local_scale
+        K = _spherical(distance.cdist(pts, pts))
+        if active.size:
+            Kpc = cross[:, active].toarray()
+            if np.any(Kpc):
+                X = self._core_solver(active).solve(np.ascontiguousarray(Kpc.T))
+                K = K - Kpc @ X
+        w, V = np.linalg.eigh(0.5 * (K + K.T))
+        root = V * np.sqrt(np.clip(w, 0.0, None))
+        return rng.standard_normal((count, e.size)) @ root.T
 
     def transect_draws(self, line, ages, boundary: int, step_m: float, draws: int | None = None):
         """Joint draws of a boundary's position along a transect at several ages.
@@ -911,7 +943,7 @@ class SpaceTimeField:
         xy = shapely.get_coordinates(shapely.line_interpolate_point(line, s))
         S = len(self.relief_samples_)
         pick = np.arange(S) if draws is None else np.linspace(0, S - 1, draws).astype(int)
-        lat = self.sample_latent(xy[:, 0], xy[:, 1], ages, draws)
+        lat = self.sample_latent(xy[:, 0], xy[:, 1], ages, draws, residual=True)
         t = self.threshold_samples_[pick, boundary - 1]
         proximal = lat < t[:, None, None]
         w = np.full(k, length / (k - 1))
