@@ -865,7 +865,10 @@ class SpaceTimeField:
         sample plus the local residual's mean. With ``residual``: also a draw of the
         local residual from its law given the cores (independent between ages, as the
         model has it), and every draw's deviation from the mean scaled by the held-out
-        calibration factor, so the draws spread as the predictive sd says.
+        calibration factor, so the draws spread as the predictive sd says. The residual
+        is drawn exactly at up to :attr:`RESIDUAL_POINTS` of the points (evenly picked
+        in their order) and interpolated in order between them: give points in order
+        along a line (a transect) when there are more.
 
         Differences between ages of one draw are what rates between slices are
         made of, so a shift and its sense come from the same draw.
@@ -890,9 +893,15 @@ class SpaceTimeField:
             out[:, ai] = r + g[:, :1] + g[:, 1:2] * xs + g[:, 2:3] * ys + loc
             if residual:
                 mean = out[:, ai].mean(axis=0)
-                noise = self._residual_draws(e, n, cross, active, pick.size, rng)
+                at = np.unique(np.linspace(0, e.size - 1, self.RESIDUAL_POINTS).astype(int))
+                noise = self._residual_draws(e[at], n[at], cross[at], active, pick.size, rng)
+                if at.size < e.size:
+                    noise = np.stack([np.interp(np.arange(e.size), at, d) for d in noise])
                 out[:, ai] = mean + self.sd_scale_ * (out[:, ai] - mean + noise)
         return out
+
+    RESIDUAL_POINTS = 160
+    """Points at which :meth:`sample_latent` draws the local residual exactly."""
 
     def _residual_draws(self, e, n, cross, active, count: int, rng) -> np.ndarray:
         """(count, points) draws of the local residual at the points given its values at
