@@ -781,6 +781,7 @@ def _run_info(project: Project, grid: Grid, maps) -> dict:
         "age_unit": project.age_unit,
         "depth_unit": project.depth_unit,
         "scheme": project.scheme.name,
+        "field_engine": project.mapping.engine,
         "tracked_boundary": project.scheme.boundary_name(project.scheme.tracked_boundary),
         "grid": dict(
             cell_size_m=grid.cell_size,

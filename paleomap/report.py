@@ -624,6 +624,7 @@ def _project(result) -> str:
             ("Working CRS (maps, lengths, areas)", _e(crs_label(p.working_crs))),
             ("Depth unit / age unit", f"{_e(p.depth_unit)} / {_e(p.age_unit)}"),
             ("Facies scheme", f"{_e(s.name)} ({s.n_belts} belts)"),
+            ("Field engine", _e(p.mapping.engine)),
             ("Tracked boundary", _e(tracked) + (" (the shoreline)" if s.tracks_shoreline else "")),
             ("Cores / intervals / picks", f"{len(p.cores)} / {n_intervals} / {n_picks}"),
             ("Surfaces / slices", f"{len(p.surfaces)} / {len(result.slice_maps)}"),

@@ -7,6 +7,7 @@ from __future__ import annotations
 import warnings
 
 import numpy as np
+import pyogrio
 import pytest
 from conftest import write_project
 from scipy import stats
@@ -91,6 +92,11 @@ def test_every_engine_through_a_whole_build(basin_build, tmp_path):
             assert row.shift_high_m <= 0 and row.rate_m_per_kyr < 0
     out = write_build(r, tmp_path / "build")
     assert (out / "paleomap.gpkg").is_file() and (out / "report.html").is_file()
+    # which engine made the maps is on record: the run_info table and the report
+    assert r.run_info["field_engine"] == engine
+    info = pyogrio.read_dataframe(out / "paleomap.gpkg", layer="run_info")
+    assert info.loc[info["key"] == "field_engine", "value"].tolist() == [engine]
+    assert f"<td>{engine}</td>" in (out / "report.html").read_text(encoding="utf-8")
 
 
 def test_predict_at_fitted_ages_is_the_slice_map_and_works_between_them(per_slice):
