@@ -41,7 +41,7 @@ from typing import TYPE_CHECKING
 import numpy as np
 import pandas as pd
 
-from .results import SHIFT_COLUMNS
+from .results import PAIR_CORE_COLUMNS, SHIFT_COLUMNS
 
 if TYPE_CHECKING:
     from .results import BuildResult
@@ -574,19 +574,7 @@ Whole-core trends: {_e(trend_text)}.</p>
 {
         _table(
             region,
-            [
-                "interval",
-                "older_age",
-                "younger_age",
-                "n_cores",
-                "n_deepening",
-                "n_shallowing",
-                "n_aggrading",
-                "n_mixed",
-                "core_sense",
-                "mapped_sense",
-                "agreement",
-            ],
+            ["interval", "older_age", "younger_age", *PAIR_CORE_COLUMNS[1:]],
             "stacking",
             units,
         )
