@@ -252,6 +252,20 @@ def _split_normal(rng, median, low, high, size):
     return median + np.where(z < 0, z * sd_low, z * sd_high)
 
 
+_NO_SHIFT = dict.fromkeys(
+    (
+        "shift_m",
+        "shift_low_m",
+        "shift_high_m",
+        "rate_m_per_kyr",
+        "rate_low_m_per_kyr",
+        "rate_high_m_per_kyr",
+    ),
+    np.nan,
+)
+"""The numbers of a shift that cannot be measured."""
+
+
 def shift_statistics(
     older: TransectPosition,
     younger: TransectPosition,
@@ -283,12 +297,7 @@ def shift_statistics(
     """
     dt = older_age_kyr - younger_age_kyr
     nan = dict(
-        shift_m=np.nan,
-        shift_low_m=np.nan,
-        shift_high_m=np.nan,
-        rate_m_per_kyr=np.nan,
-        rate_low_m_per_kyr=np.nan,
-        rate_high_m_per_kyr=np.nan,
+        _NO_SHIFT,
         shift_bound="",
         older_outside=older.outside,
         younger_outside=younger.outside,
@@ -366,14 +375,7 @@ def joint_shift_statistics(
     ok = np.isfinite(s)
     dt = older_age_kyr - younger_age_kyr
     if ok.sum() * 2 < s.size or not dt > 0:
-        return dict(
-            shift_m=np.nan,
-            shift_low_m=np.nan,
-            shift_high_m=np.nan,
-            rate_m_per_kyr=np.nan,
-            rate_low_m_per_kyr=np.nan,
-            rate_high_m_per_kyr=np.nan,
-        )
+        return dict(_NO_SHIFT)
     s = s[ok]
     if centre is not None and np.isfinite(centre):
         s = s - np.median(s) + float(centre)

@@ -578,13 +578,13 @@ def _shifts(project: Project, grid: Grid, maps, transects, positions, dip: float
 
     draw = getattr(fitted, "transect_draws", None)
     slice_ages = [m.slice.age for m in maps]
+    column = {m.slice.name: i for i, m in enumerate(maps)}
     for b in scheme.tracked_boundaries:
         bname = scheme.boundary_name(b)
         draws = {}
         if draw is not None:
             step = grid.cell_size / 2
             draws = {t.transect: draw(t.line, slice_ages, b, step) for t in transects}
-        column = {m.slice.name: i for i, m in enumerate(maps)}
         for k, (old, young) in enumerate(_ordered_pairs(maps)):
             first = len(rows)
             for tr in transects:

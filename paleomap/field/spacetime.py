@@ -74,7 +74,7 @@ from __future__ import annotations
 
 import logging
 import math
-from dataclasses import dataclass
+from dataclasses import dataclass, replace
 
 import numpy as np
 import pandas as pd
@@ -667,20 +667,14 @@ class SpaceTimeField:
         if test.sum() < 5:
             return 1.0
         sub = SpaceTimeField(
-            SpaceTimeSettings(
+            replace(
+                st,
                 samples=max(40, st.samples // 4),
                 burn_in=max(60, st.burn_in // 2),
                 thin=1,
                 seed=st.seed + 1,
-                age_steps=st.age_steps,
-                time_knots=st.time_knots,
-                knots_per_spacing=st.knots_per_spacing,
-                max_knots=st.max_knots,
                 anisotropy=self.relief_["anisotropy"],
                 range_spacings=self.relief_["range_m"] / self.spacing_m_,
-                local_range=st.local_range,
-                local_anisotropy=st.local_anisotropy,
-                estimate_thresholds=st.estimate_thresholds,
                 calibrate=False,
             )
         ).fit(records.select(~held), n_belts)
@@ -731,6 +725,24 @@ class SpaceTimeField:
         j = np.clip(np.floor(frac * o["npts"][chosen]).astype(np.int64), 0, o["npts"][chosen] - 1)
         out[cores] = self._resid[o["start"][chosen] + j]
         return out
+
+    def smooth_mean(self, easting, northing, age: float) -> np.ndarray:
+        """The posterior mean of the smooth part (relief + sea level + tilt) at points
+        and one age: the map's mean without the local residual."""
+        e = np.asarray(easting, float).ravel()
+        n = np.asarray(northing, float).ravel()
+        g = self._time_terms(age).mean(axis=0)
+        knots, wts = self._lattice.weights(e, n)
+        return (
+            (self._r_mean[knots] * wts).sum(-1)
+            + g[0]
+            + g[1] * (e - self.centre_[0]) / self.scale_
+            + g[2] * (n - self.centre_[1]) / self.scale_
+        )
+
+    def sea_level_at(self, age: float) -> float:
+        """The posterior mean of the basin-wide term ``S`` at ``age`` (latent units)."""
+        return float(self._time_terms(age)[:, 0].mean())
 
     def _time_terms(self, age):
         """(samples, 3) draws of S(a), G_e(a), G_n(a)."""
@@ -1055,14 +1067,7 @@ class SpaceTimeModel:
         share = np.nan
         if idx.size:
             e, n = self.records.easting[idx], self.records.northing[idx]
-            g = f._time_terms(float(age)).mean(axis=0)
-            knots, wts = f._lattice.weights(e, n)
-            smooth = (
-                (f._r_mean[knots] * wts).sum(-1)
-                + g[0]
-                + g[1] * (e - f.centre_[0]) / f.scale_
-                + g[2] * (n - f.centre_[1]) / f.scale_
-            )
+            smooth = f.smooth_mean(e, n, float(age))
             belt = np.searchsorted(f.thresholds_, smooth, side="right")
             share = float(np.mean(belt == self.records.rank[idx]))
         return dict(
@@ -1072,6 +1077,6 @@ class SpaceTimeModel:
             relief_range_m=float(f.relief_["range_m"]),
             relief_strike_to_dip=float(f.relief_["anisotropy"]),
             relief_azimuth_deg=float(f.relief_["azimuth_deg"]),
-            sea_level_latent=float(f._time_terms(float(age)).mean(axis=0)[0]),
+            sea_level_latent=float(f.sea_level_at(float(age))),
             sd_scale=float(f.sd_scale_),
         )
